@@ -1,0 +1,69 @@
+"""reconcile: exact lot matching, statement tie-out and fee audit for trading books.
+
+The public API is what ``__all__`` lists; everything else is private and may change. Names are
+imported on first use, so importing the package (and starting the command line) stays fast.
+
+>>> import reconcile
+>>> fills = reconcile.read_fills("sample_data/fills.csv")          # doctest: +SKIP
+>>> book = reconcile.match(fills, method="fifo")                     # doctest: +SKIP
+>>> book.positions                                                   # doctest: +SKIP
+
+Errors are documented in :mod:`reconcile.errors`. The output is not tax, accounting or legal
+advice; local rules and a licensed professional prevail.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from reconcile import errors
+    from reconcile.core.book import Book
+    from reconcile.core.matching import match
+    from reconcile.core.summary import currency_totals
+    from reconcile.io.readers import read_fills, read_financing, read_opening
+    from reconcile.io.writers.tables import write_tables
+    from reconcile.money import allocate, minor_unit, round_money
+
+__all__ = [
+    "Book",
+    "allocate",
+    "currency_totals",
+    "errors",
+    "match",
+    "minor_unit",
+    "read_fills",
+    "read_financing",
+    "read_opening",
+    "round_money",
+    "write_tables",
+]
+
+_HOMES = {
+    "Book": "reconcile.core.book",
+    "allocate": "reconcile.money",
+    "currency_totals": "reconcile.core.summary",
+    "errors": "reconcile.errors",
+    "match": "reconcile.core.matching",
+    "minor_unit": "reconcile.money",
+    "read_financing": "reconcile.io.readers",
+    "read_fills": "reconcile.io.readers",
+    "read_opening": "reconcile.io.readers",
+    "round_money": "reconcile.money",
+    "write_tables": "reconcile.io.writers.tables",
+}
+
+
+def __getattr__(name: str) -> Any:
+    home = _HOMES.get(name)
+    if home is None:
+        raise AttributeError(f"module 'reconcile' has no attribute {name!r}")
+    module = importlib.import_module(home)
+    value = module if name == "errors" else getattr(module, name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

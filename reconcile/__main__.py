@@ -1,0 +1,3 @@
+from reconcile.cli import main
+
+main()

@@ -1,0 +1,12 @@
+"""The ``reconcile`` command line: one short function per command, the same verbs as the API."""
+
+from __future__ import annotations
+
+from reconcile.cli import match as _match  # noqa: F401  (registers the command)
+from reconcile.cli._app import app
+
+__all__ = ["app", "main"]
+
+
+def main() -> None:
+    app()

@@ -1,0 +1,99 @@
+"""The typer application and what every command shares: error handling and common options."""
+
+from __future__ import annotations
+
+import functools
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import Annotated, ParamSpec, TypeVar
+
+import typer
+
+from reconcile.errors import ReconcileError
+
+app = typer.Typer(
+    name="reconcile",
+    help="Match fills into lots and round trips, tie them out against statements, audit fees.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_show_locals=False,  # a traceback must never print account data
+    rich_markup_mode=None,
+)
+
+P = ParamSpec("P")
+T = TypeVar("T")
+
+
+def reports_errors(command: Callable[P, T]) -> Callable[P, T]:
+    """Turn a deliberate error into a message on stderr and its exit code, never a traceback."""
+
+    @functools.wraps(command)
+    def wrapper(*args: P.args, **kwargs: P.kwargs) -> T:
+        try:
+            return command(*args, **kwargs)
+        except ReconcileError as error:
+            print(f"error: {error}", file=sys.stderr)
+            raise typer.Exit(error.exit_code) from None
+
+    return wrapper
+
+
+Timezone = Annotated[
+    str | None,
+    typer.Option(
+        "--timezone",
+        metavar="ZONE",
+        help="IANA zone for times written without a UTC offset, e.g. America/New_York.",
+    ),
+]
+Dedupe = Annotated[
+    bool,
+    typer.Option(
+        "--dedupe", help="Drop exact repeated rows (counted in the summary) instead of failing."
+    ),
+]
+Method = Annotated[
+    str, typer.Option("--method", metavar="fifo|lifo|hifo|average", help="Lot relief method.")
+]
+Commission = Annotated[
+    str,
+    typer.Option(
+        "--commission",
+        metavar="at-close|at-fill",
+        help="When commissions are realized: with the lot's close, or when paid.",
+    ),
+]
+Rounding = Annotated[
+    str,
+    typer.Option(
+        "--rounding", metavar="half-even|half-up", help="Rounding of amounts to minor units."
+    ),
+]
+OutDir = Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")]
+InputFile = Annotated[
+    Path, typer.Argument(metavar="FILLS", help="Fills file (CSV or Parquet).", show_default=False)
+]
+
+
+def _show_version(value: bool) -> None:
+    if value:
+        from importlib.metadata import version
+
+        print(f"reconcile {version('reconcile')}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    show_version: Annotated[
+        bool,
+        typer.Option(
+            "--version", callback=_show_version, is_eager=True, help="Print the version and exit."
+        ),
+    ] = False,
+) -> None:
+    """Match fills into lots and round trips, tie them out against statements, audit fees.
+
+    Exit codes: 0 all good, 1 breaks or fee leakage found, 2 bad input or options.
+    """

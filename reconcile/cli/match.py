@@ -1,0 +1,56 @@
+"""``reconcile match``: fills in, lots, round trips and positions out."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from reconcile.cli._app import (
+    Commission,
+    Dedupe,
+    InputFile,
+    Method,
+    OutDir,
+    Rounding,
+    Timezone,
+    app,
+    reports_errors,
+)
+
+
+@app.command("match")
+@reports_errors
+def match_command(
+    fills: InputFile,
+    financing: Annotated[
+        Path | None,
+        typer.Option(
+            "--financing", metavar="FILE", help="Financing events (swaps, borrow, dividends...)."
+        ),
+    ] = None,
+    opening: Annotated[
+        Path | None,
+        typer.Option(
+            "--opening", metavar="FILE", help="Open lots carried in from an earlier period."
+        ),
+    ] = None,
+    method: Method = "fifo",
+    commission: Commission = "at-close",
+    rounding: Rounding = "half-even",
+    timezone: Timezone = None,
+    dedupe: Dedupe = False,
+    out: OutDir = Path("reconcile-out"),
+    fmt: Annotated[
+        str,
+        typer.Option("--format", metavar="csv|parquet|json", help="Format of the tables written."),
+    ] = "csv",
+) -> None:
+    """Match fills into closed lots, round trips, open lots and positions."""
+    from reconcile.io import session
+
+    inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
+    written = session.write_book(book, inputs, out, fmt)
+    session.show_match(book, inputs, written)

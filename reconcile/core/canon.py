@@ -1,0 +1,588 @@
+"""Turn a frame of raw values into the canonical fills, financing or opening-lot table.
+
+Every column is converted at once with Arrow compute, and every problem found is collected with its
+row and column before anything is raised, so one run reports all that is wrong with an input.
+The functions know nothing of files: ``source`` is only the label errors carry.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass, field
+from decimal import Decimal, InvalidOperation
+from typing import Any, Final
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from reconcile import schema
+from reconcile.errors import MissingColumnsError, Problem, raise_if_problems
+from reconcile.money import is_known_currency, minor_unit
+from reconcile.timezones import zone
+
+MAX_DIGITS: Final = 38
+_PLAIN_DECIMAL: Final = r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)$"
+_EXPONENT_DECIMAL: Final = re.compile(r"^[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)[eE][+-]?[0-9]+$")
+_ISO_TIME: Final = (
+    r"^(?P<date>[0-9]{4}-[0-9]{2}-[0-9]{2})"
+    r"(?P<clock>[T ][0-9]{2}:[0-9]{2}(?::[0-9]{2}(?:[.,][0-9]{1,9})?)?)?"
+    r"(?P<offset>Z|z|[+-][0-9]{2}(?::?[0-9]{2})?)?$"
+)
+TIME_DTYPE: Final = "datetime64[ns, UTC]"
+
+
+@dataclass
+class _Checker:
+    """Converts one frame column by column and collects the problems it meets."""
+
+    frame: pd.DataFrame
+    source: str
+    rows: np.ndarray
+    problems: list[Problem] = field(default_factory=list)
+
+    def add(
+        self,
+        positions: Iterable[int],
+        column: str,
+        expected: str,
+        found: Sequence[str | None] | None = None,
+        reason: str = "invalid value",
+    ) -> None:
+        for n, position in enumerate(positions):
+            value = None if found is None else found[n]
+            self.problems.append(
+                Problem(self.source, expected, value, int(self.rows[position]), column, reason)
+            )
+
+    def raw_text(self, column: str) -> pa.Array:
+        """The column as Arrow strings (null where absent or missing)."""
+        return _as_text(self.frame[column], column, self)
+
+    def text(self, column: str, *, required: bool, default: str = "") -> pa.Array:
+        if column not in self.frame.columns:
+            return pa.array([default] * len(self.frame), pa.string())
+        values = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
+        if required:
+            blank = _positions(pc.equal(values, ""))
+            self.add(blank, column, "a non-empty value", [""] * len(blank), "blank value")
+        elif default:
+            values = pc.if_else(pc.equal(values, ""), default, values)
+        return values
+
+    def choice(
+        self,
+        column: str,
+        mapping: dict[str, str],
+        expected: str,
+        fold: Callable[[pa.Array], pa.Array] = pc.utf8_lower,
+    ) -> pa.Array:
+        values = self.text(column, required=False)
+        folded = fold(values)
+        keys = pa.array(list(mapping), pa.string())
+        known = pc.is_in(folded, value_set=keys)
+        bad = _positions(pc.invert(known))
+        self.add(bad, column, expected, _take(values, bad), "unknown value")
+        lookup = pc.index_in(folded, value_set=keys)
+        targets = pa.array(list(mapping.values()), pa.string())
+        return pc.fill_null(pc.take(targets, lookup), "")
+
+    def decimal(
+        self,
+        column: str,
+        *,
+        default: str | None = None,
+        optional: bool = False,
+        rule: str = "",
+        expected: str = "a decimal number",
+    ) -> pa.Array:
+        """Exact decimal column; ``rule`` is one of '', '>0', '>=0'.
+
+        A blank or absent value takes ``default``; with ``optional`` it stays null; otherwise a
+        blank is a problem.
+        """
+        if column not in self.frame.columns:
+            if optional:
+                return pa.nulls(len(self.frame), pa.decimal128(1, 0))
+            assert default is not None, column
+            return pa.array([Decimal(default)] * len(self.frame), pa.decimal128(1, 0))
+        series = self.frame[column]
+        if pd.api.types.is_float_dtype(series.dtype):
+            self.problems.append(
+                Problem(
+                    self.source,
+                    "exact decimal values (text or a decimal type)",
+                    str(series.dtype),
+                    None,
+                    column,
+                    "binary floating-point column",
+                )
+            )
+            return pa.nulls(len(series), pa.decimal128(1, 0))
+        if isinstance(series.dtype, pd.ArrowDtype) and pa.types.is_decimal(
+            series.dtype.pyarrow_dtype
+        ):
+            values = _arrow(series)
+            blank = pc.is_null(values)
+            shown = values.cast(pa.string())
+        else:
+            shown = pc.utf8_trim_whitespace(self.raw_text(column))
+            blank = pc.fill_null(pc.equal(shown, ""), True)
+            values = self._parse_decimal_text(column, shown, expected)
+        if default is not None:
+            values = pc.if_else(blank, pa.scalar(Decimal(default), values.type), values)
+        elif not optional:
+            missing = _positions(blank)
+            self.add(missing, column, expected, [""] * len(missing), "blank value")
+        self._check_rule(column, values, shown, rule, expected)
+        return values
+
+    def _parse_decimal_text(self, column: str, text: pa.Array, expected: str) -> pa.Array:
+        """Parse text exactly; blanks and reported bad values come back null."""
+        text = pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.string()), text)
+        plain = pc.fill_null(pc.match_substring_regex(text, _PLAIN_DECIMAL), True)
+        rewritten, bad = _rewrite_exponents(text, plain)
+        self.add(
+            bad, column, f"{expected} (finite, plain digits)", _take(text, bad), "not a number"
+        )
+        has_dot = pc.greater_equal(pc.find_substring(rewritten, "."), 0)
+        scale = pc.if_else(
+            has_dot,
+            pc.subtract(
+                pc.subtract(pc.utf8_length(rewritten), pc.find_substring(rewritten, ".")), 1
+            ),
+            0,
+        )
+        digits = pc.utf8_length(pc.replace_substring_regex(rewritten, r"^[+-]?0*|\.", ""))
+        int_digits = pc.subtract(digits, scale)
+        max_scale = min(pc.max(scale).as_py() or 0, MAX_DIGITS)
+        # Arrow wraps silently when a cast overflows, so widths are checked before casting.
+        too_wide = pc.fill_null(
+            pc.greater(pc.add(pc.max_element_wise(int_digits, 0), max_scale), MAX_DIGITS), False
+        )
+        wide = _positions(too_wide)
+        self.add(
+            wide,
+            column,
+            f"at most {MAX_DIGITS} digits in all ({max_scale} after the point in this column)",
+            _take(text, wide),
+            "too many digits",
+        )
+        safe = pc.if_else(too_wide, pa.scalar(None, pa.string()), rewritten)
+        widest = pc.max(pc.if_else(too_wide, 0, int_digits)).as_py() or 0
+        return pc.cast(safe, pa.decimal128(max(widest, 1) + max_scale, max_scale))
+
+    def _check_rule(
+        self, column: str, values: pa.Array, shown: pa.Array, rule: str, expected: str
+    ) -> None:
+        if not rule:
+            return
+        zero = pa.scalar(Decimal(0), pa.decimal128(1, 0))
+        failing = pc.less_equal(values, zero) if rule == ">0" else pc.less(values, zero)
+        bad = _positions(pc.fill_null(failing, False))
+        self.add(bad, column, expected, _take(shown, bad), "out of range")
+
+    def time(self, column: str, timezone: str | None) -> pd.Series:
+        """UTC timestamps; a time without an offset needs ``timezone`` (IANA) to be placed."""
+        series = self.frame[column]
+        if isinstance(series.dtype, pd.DatetimeTZDtype):
+            aware: pd.Series = series.dt.tz_convert("UTC").astype(TIME_DTYPE)
+            return aware.reset_index(drop=True)
+        if pd.api.types.is_datetime64_dtype(series.dtype):
+            text = pa.array(series.dt.strftime("%Y-%m-%dT%H:%M:%S.%f").tolist(), pa.string())
+        else:
+            text = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
+        parts = pc.extract_regex(text, _ISO_TIME)
+        bad_shape = _positions(pc.is_null(parts))
+        self.add(
+            bad_shape,
+            column,
+            "an ISO 8601 date-time such as 2026-11-30T16:00:00-05:00",
+            _take(text, bad_shape),
+            "bad time",
+        )
+        offset = pc.fill_null(pc.struct_field(parts, "offset"), "-")
+        strings = pd.Series(pc.replace_substring(text, ",", ".").to_pylist(), dtype=object)
+        result = pd.Series(pd.NaT, index=range(len(series)), dtype=TIME_DTYPE)
+        with_offset = _mask(pc.and_(pc.is_valid(parts), pc.not_equal(offset, "")))
+        naive = _mask(pc.equal(offset, ""))
+        if with_offset.any():
+            parsed = pd.to_datetime(
+                strings[with_offset], format="ISO8601", utc=True, errors="coerce"
+            )
+            result[with_offset] = parsed.astype(TIME_DTYPE)
+            self._report_unreal(column, strings, with_offset & result.isna().to_numpy())
+        if naive.any() and timezone is None:
+            where = [int(i) for i in np.flatnonzero(naive)]
+            self.add(
+                where,
+                column,
+                "a UTC offset (e.g. +00:00 or Z), or --timezone ZONE",
+                strings[naive].tolist(),
+                "time without offset",
+            )
+        elif naive.any():
+            assert timezone is not None
+            result[naive] = self._localise(column, strings, naive, timezone)
+        return result
+
+    def _localise(
+        self, column: str, strings: pd.Series, naive: np.ndarray, timezone: str
+    ) -> pd.Series:
+        parsed = pd.to_datetime(strings[naive], format="ISO8601", errors="coerce")
+        self._report_unreal(column, strings, _spread(naive, parsed.isna().to_numpy()))
+        local = parsed.dt.tz_localize(zone(timezone), ambiguous="NaT", nonexistent="NaT")
+        lost = _spread(naive, (local.isna() & parsed.notna()).to_numpy())
+        self.add(
+            list(np.flatnonzero(lost)),
+            column,
+            f"a local time that occurs exactly once in {timezone} (give a UTC offset)",
+            strings[lost].tolist(),
+            "ambiguous or skipped local time",
+        )
+        return local.dt.tz_convert("UTC").astype(TIME_DTYPE)
+
+    def _report_unreal(self, column: str, strings: pd.Series, mask: np.ndarray) -> None:
+        self.add(
+            list(np.flatnonzero(mask)),
+            column,
+            "a real calendar date and time",
+            strings[mask].tolist(),
+            "bad time",
+        )
+
+    def currency(self, column: str) -> pa.Array:
+        values = self.text(column, required=True)
+        upper = pc.utf8_upper(values)
+        codes = [c for c in pc.unique(upper).to_pylist() if c]
+        unknown = [c for c in codes if not is_known_currency(c)]
+        unitless = [c for c in codes if c not in unknown and minor_unit(c) is None]
+        for codes_bad, expected in (
+            (unknown, "an ISO 4217 currency code such as USD"),
+            (unitless, "a currency with an ISO 4217 minor unit"),
+        ):
+            if codes_bad:
+                bad = _positions(pc.is_in(upper, value_set=pa.array(codes_bad, pa.string())))
+                self.add(bad, column, expected, _take(values, bad), "unknown currency")
+        return upper
+
+    def check_distinct_ids(
+        self, column: str, ids: pa.Array, compare: list[str], dedupe: bool
+    ) -> np.ndarray:
+        """Rows to keep; exact repeats are errors unless ``dedupe``, clashing ids always are."""
+        table = self.frame[compare].astype(str).reset_index(drop=True)
+        table[column] = ids.to_pylist()
+        exact = table.duplicated(keep="first").to_numpy()
+        keep = ~exact
+        if exact.any() and not dedupe:
+            group = table.groupby(compare, dropna=False, sort=False).ngroup().to_numpy()
+            first_row = pd.Series(self.rows).groupby(group).transform("first").to_numpy()
+            where = list(np.flatnonzero(exact))
+            self.problems += [
+                Problem(
+                    self.source,
+                    f"no exact repeat of row {first_row[i]} (a repeated fill is usually "
+                    "a break; --dedupe drops exact repeats)",
+                    None,
+                    int(self.rows[i]),
+                    None,
+                    "duplicate row",
+                )
+                for i in where
+            ]
+        ids_kept = table.loc[keep, column].astype(str)
+        clash = ids_kept.duplicated(keep=False) & ids_kept.ne("")
+        for value, same in ids_kept[clash].groupby(ids_kept[clash], sort=False):
+            first, second = int(same.index[0]), int(same.index[1])
+            one, two = table.iloc[first].to_dict(), table.iloc[second].to_dict()
+            columns = [c for c in compare if one[c] != two[c]]
+            detail = ", ".join(f"{c} {one[c]!r} vs {two[c]!r}" for c in columns[:3])
+            self.problems.append(
+                Problem(
+                    self.source,
+                    f"a unique {column} (row {self.rows[first]} has the same id with "
+                    f"different content: {detail})",
+                    str(value),
+                    int(self.rows[second]),
+                    column,
+                    "duplicate id",
+                )
+            )
+        return keep
+
+    def check_one_per_key(self, frame: pd.DataFrame, column: str, what: str) -> None:
+        """One value of ``column`` per (account, instrument): name the rows that disagree."""
+        if any(p.column == column for p in self.problems):
+            return  # bad values would only be reported twice
+        grouped = frame.groupby(["account", "instrument"], sort=False)[column]
+        counts = grouped.nunique()
+        for account, instrument in counts[counts > 1].index:
+            rows = frame[(frame["account"] == account) & (frame["instrument"] == instrument)]
+            firsts = rows.drop_duplicates(column)
+            (r1, v1), (r2, v2) = list(zip(firsts[schema.SOURCE_ROW], firsts[column], strict=True))[
+                :2
+            ]
+            self.problems.append(
+                Problem(
+                    self.source,
+                    f"one {what} per account and instrument ({account} {instrument} has "
+                    f"{v1} at row {r1})",
+                    str(v2),
+                    int(r2),
+                    column,
+                    f"two {what}s for one instrument",
+                )
+            )
+
+
+def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[int]]:
+    """Rewrite the rare ``1.5E-3`` forms as plain digits; return the rows that are not numbers."""
+    odd = _positions(pc.invert(plain))
+    if not odd:
+        return text, []
+    values = text.to_pylist()
+    bad = []
+    for i in odd:
+        candidate = values[i]
+        if candidate is not None and _EXPONENT_DECIMAL.match(candidate):
+            try:
+                values[i] = format(Decimal(candidate), "f")
+                continue
+            except InvalidOperation:  # pragma: no cover - the regex admits only finite forms
+                pass
+        bad.append(i)
+        values[i] = None
+    return pa.array(values, pa.string()), bad
+
+
+def _as_text(series: pd.Series, column: str, checker: _Checker | None) -> pa.Array:
+    if isinstance(series.dtype, pd.ArrowDtype) or pd.api.types.is_string_dtype(series.dtype):
+        return _arrow(series).cast(pa.string())
+    if pd.api.types.is_integer_dtype(series.dtype):
+        return pa.array(series.astype(str).tolist(), pa.string())
+    values: list[str | None] = []
+    floats: list[int] = []
+    for i, value in enumerate(series.tolist()):
+        if value is None or value is pd.NA or value is pd.NaT:
+            values.append(None)
+        elif isinstance(value, float):
+            if value != value:
+                values.append(None)
+            else:
+                floats.append(i)
+                values.append(None)
+        elif isinstance(value, Decimal):
+            values.append(format(value, "f") if value.is_finite() else str(value))
+        else:
+            values.append(str(value))
+    if floats and checker is not None:
+        checker.add(
+            floats,
+            column,
+            "exact values (text, integer or Decimal), not binary floats",
+            [repr(series.iloc[i]) for i in floats],
+            "binary float",
+        )
+    return pa.array(values, pa.string())
+
+
+def _arrow(series: pd.Series) -> pa.Array:
+    array = pa.array(series.array)
+    return array.combine_chunks() if isinstance(array, pa.ChunkedArray) else array
+
+
+def _spread(outer: np.ndarray, inner: np.ndarray) -> np.ndarray:
+    """Place ``inner`` (one flag per True of ``outer``) back at full length."""
+    full = np.zeros(len(outer), dtype=bool)
+    full[np.flatnonzero(outer)] = inner
+    return full
+
+
+def _positions(mask: pa.Array) -> list[int]:
+    return [int(i) for i in np.flatnonzero(_mask(mask))]
+
+
+def _mask(mask: pa.Array) -> np.ndarray:
+    return np.asarray(pc.fill_null(mask, False).to_numpy(zero_copy_only=False), dtype=bool)
+
+
+def _take(values: pa.Array, positions: list[int]) -> list[str | None]:
+    if not positions:
+        return []
+    return [None if v is None else str(v) for v in pc.take(values, pa.array(positions)).to_pylist()]
+
+
+def _require(frame: pd.DataFrame, required: Sequence[str], source: str) -> None:
+    present = [str(c) for c in frame.columns]
+    missing = [c for c in required if c not in present]
+    if not missing:
+        return
+    hints = []
+    for name in missing:
+        close = difflib.get_close_matches(name, present, n=1, cutoff=0.5)
+        hints.append(
+            f"{name} (a column {close[0]!r} exists: rename it or use a profile)" if close else name
+        )
+    raise MissingColumnsError(
+        f"{source}: missing required column{'s' if len(missing) > 1 else ''}: "
+        f"{', '.join(hints)}; the header has: {', '.join(present) or '(nothing)'}",
+        [Problem(source, "a column named " + m, None, 1, m, "missing column") for m in missing],
+    )
+
+
+def _source_rows(frame: pd.DataFrame) -> np.ndarray:
+    if schema.SOURCE_ROW in frame.columns:
+        return frame[schema.SOURCE_ROW].to_numpy(dtype=np.int64)
+    return np.arange(2, len(frame) + 2, dtype=np.int64)
+
+
+def _extras(frame: pd.DataFrame, known: Iterable[str]) -> list[str]:
+    names = set(known) | {schema.SOURCE_ROW}
+    return [c for c in frame.columns if c not in names]
+
+
+def _assemble(
+    columns: dict[str, pa.Array | pd.Series],
+    frame: pd.DataFrame,
+    keep: np.ndarray,
+    extras: list[str],
+    rows: np.ndarray,
+) -> pd.DataFrame:
+    data: dict[str, Any] = {}
+    for name, values in columns.items():
+        if isinstance(values, pd.Series):
+            data[name] = values[keep].reset_index(drop=True)
+        elif pa.types.is_decimal(values.type):
+            data[name] = pd.Series(values.filter(pa.array(keep)), dtype=pd.ArrowDtype(values.type))
+        else:
+            data[name] = pd.Series(values.filter(pa.array(keep)).to_pylist(), dtype="str")
+    for name in extras:
+        data[name] = frame[name].reset_index(drop=True)[keep].reset_index(drop=True)
+    data[schema.SOURCE_ROW] = rows[keep]
+    return pd.DataFrame(data)
+
+
+def canonical_fills(
+    frame: pd.DataFrame, *, source: str = "fills", timezone: str | None = None, dedupe: bool = False
+) -> pd.DataFrame:
+    """Validate and convert a fills frame; raise one error listing every problem found.
+
+    The result has the canonical fill columns, then any other columns untouched, then
+    ``source_row``. ``result.attrs["read_summary"]`` counts rows read and exact repeats dropped.
+    """
+    _require(frame, schema.FILL_REQUIRED, source)
+    frame = frame.reset_index(drop=True)
+    if timezone is not None:
+        zone(timezone)  # an unknown zone is an error even when no time needs it
+    check = _Checker(frame, source, _source_rows(frame))
+    columns: dict[str, pa.Array | pd.Series] = {
+        "fill_id": check.text("fill_id", required=True),
+        "account": check.text("account", required=True),
+        "instrument": check.text("instrument", required=True),
+        "side": check.choice("side", schema.SIDES, "buy or sell (also B or S, any case)"),
+        "quantity": check.decimal("quantity", rule=">0", expected="a decimal > 0"),
+        "price": check.decimal("price"),
+        "time": check.time("time", timezone),
+        "commission": check.decimal(
+            "commission", default="0", rule=">=0", expected="a decimal >= 0"
+        ),
+        "currency": check.currency("currency"),
+        "multiplier": check.decimal("multiplier", default="1", rule=">0", expected="a decimal > 0"),
+        "order_id": check.text("order_id", required=False),
+        "venue": check.text("venue", required=False),
+    }
+    compare = [c for c in frame.columns if c != schema.SOURCE_ROW]
+    keep = check.check_distinct_ids("fill_id", columns["fill_id"], compare, dedupe)
+    result = _assemble(columns, frame, keep, _extras(frame, schema.FILL_COLUMNS), check.rows)
+    check.check_one_per_key(result, "currency", "currency")
+    check.check_one_per_key(
+        result.assign(multiplier=result["multiplier"].astype(str)), "multiplier", "multiplier"
+    )
+    _raise(check)
+    result.attrs["read_summary"] = {
+        "source": source,
+        "rows_read": len(frame),
+        "accepted": len(result),
+        "duplicates_dropped": int((~keep).sum()),
+    }
+    return result
+
+
+def canonical_financing(
+    frame: pd.DataFrame,
+    *,
+    source: str = "financing",
+    timezone: str | None = None,
+    dedupe: bool = False,
+) -> pd.DataFrame:
+    """Validate and convert a financing-events frame (see :func:`canonical_fills`)."""
+    _require(frame, schema.FINANCING_COLUMNS, source)
+    frame = frame.reset_index(drop=True)
+    if timezone is not None:
+        zone(timezone)  # an unknown zone is an error even when no time needs it
+    check = _Checker(frame, source, _source_rows(frame))
+    kinds = {k: k for k in schema.FINANCING_KINDS}
+    columns: dict[str, pa.Array | pd.Series] = {
+        "event_id": check.text("event_id", required=True),
+        "account": check.text("account", required=True),
+        "instrument": check.text("instrument", required=True),
+        "time": check.time("time", timezone),
+        "amount": check.decimal("amount", expected="a signed decimal (negative is a charge)"),
+        "currency": check.currency("currency"),
+        "kind": check.choice("kind", kinds, "one of " + ", ".join(schema.FINANCING_KINDS)),
+    }
+    compare = [c for c in frame.columns if c != schema.SOURCE_ROW]
+    keep = check.check_distinct_ids("event_id", columns["event_id"], compare, dedupe)
+    result = _assemble(columns, frame, keep, _extras(frame, schema.FINANCING_COLUMNS), check.rows)
+    _raise(check)
+    result.attrs["read_summary"] = {
+        "source": source,
+        "rows_read": len(frame),
+        "accepted": len(result),
+        "duplicates_dropped": int((~keep).sum()),
+    }
+    return result
+
+
+def canonical_opening(
+    frame: pd.DataFrame, *, source: str = "opening", timezone: str | None = None
+) -> pd.DataFrame:
+    """Validate and convert open lots carried in from an earlier period (``open_lots`` columns)."""
+    _require(frame, schema.OPENING_REQUIRED, source)
+    frame = frame.reset_index(drop=True)
+    if timezone is not None:
+        zone(timezone)  # an unknown zone is an error even when no time needs it
+    check = _Checker(frame, source, _source_rows(frame))
+    directions = {"long": "long", "short": "short"}
+    columns: dict[str, pa.Array | pd.Series] = {
+        "account": check.text("account", required=True),
+        "instrument": check.text("instrument", required=True),
+        "currency": check.currency("currency"),
+        "direction": check.choice("direction", directions, "long or short"),
+        "open_fill_id": check.text("open_fill_id", required=True),
+        "open_time": check.time("open_time", timezone),
+        "quantity": check.decimal("quantity", rule=">0", expected="a decimal > 0"),
+        "open_price": check.decimal("open_price"),
+        "commission": check.decimal(
+            "commission", default="0", rule=">=0", expected="a decimal >= 0"
+        ),
+        "financing": check.decimal("financing", default="0"),
+        "multiplier": check.decimal("multiplier", default="1", rule=">0", expected="a decimal > 0"),
+    }
+    columns["cost_basis"] = check.decimal("cost_basis", optional=True)
+    keep = np.ones(len(frame), dtype=bool)
+    result = _assemble(columns, frame, keep, [], check.rows)
+    check.check_one_per_key(result, "currency", "currency")
+    check.check_one_per_key(
+        result.assign(multiplier=result["multiplier"].astype(str)), "multiplier", "multiplier"
+    )
+    _raise(check)
+    return result
+
+
+def _raise(check: _Checker) -> None:
+    ordered = sorted(check.problems, key=lambda p: (p.row or 0, p.column or ""))
+    raise_if_problems(check.source, ordered)

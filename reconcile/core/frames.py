@@ -1,0 +1,63 @@
+"""Build output DataFrames with exact, predictable column types from rows of Python values."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from decimal import Decimal
+from typing import Any
+
+import pandas as pd
+import pyarrow as pa
+
+from reconcile import schema
+from reconcile.money import places_of
+
+
+def decimal_array(values: Sequence[Decimal | None]) -> pa.Array:
+    """An Arrow decimal array wide enough for every value, at the largest scale among them."""
+    present = [v for v in values if v is not None]
+    scale = max((places_of(v) for v in present), default=0)
+    return pa.array(
+        # A zero can come out of the arithmetic signed (0 x -1); it is written unsigned.
+        [v.copy_abs() if v is not None and v == 0 else v for v in values],
+        type=tight_decimal_type(present, scale),
+    )
+
+
+def tight_decimal_type(values: Sequence[Decimal], scale: int) -> pa.DataType:
+    """The narrowest decimal type holding ``values`` at ``scale``.
+
+    Narrow types matter: Arrow widens precision on every multiplication, so a column typed at the
+    maximum precision could not even be multiplied by another.
+    """
+    int_digits = max((v.adjusted() + 1 for v in values if v != 0), default=1)
+    precision = max(int_digits, 1) + scale
+    return pa.decimal128(precision, scale) if precision <= 38 else pa.decimal256(precision, scale)
+
+
+def build_frame(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> pd.DataFrame:
+    """A DataFrame of ``columns`` from row dicts, each column typed by :mod:`reconcile.schema`."""
+    arrays = [_array(name, [row.get(name) for row in rows]) for name in columns]
+    table = pa.Table.from_arrays(arrays, names=list(columns))
+    frame: pd.DataFrame = table.to_pandas(types_mapper=_pandas_type)
+    return frame
+
+
+def _array(name: str, values: list[Any]) -> pa.Array:
+    if name in schema.DECIMAL_COLUMNS:
+        return decimal_array(values)
+    if name in schema.TIME_COLUMNS:
+        return pa.array(values, pa.timestamp("ns", tz="UTC"))
+    if name in schema.DURATION_COLUMNS:
+        return pa.array(values, pa.duration("ns"))
+    if name in schema.INTEGER_COLUMNS:
+        return pa.array(values, pa.int64())
+    return pa.array(values, pa.string())
+
+
+def _pandas_type(kind: pa.DataType) -> Any:
+    if pa.types.is_decimal(kind):
+        return pd.ArrowDtype(kind)
+    if pa.types.is_string(kind):
+        return pd.StringDtype(na_value=float("nan"))
+    return None

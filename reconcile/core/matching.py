@@ -1,0 +1,59 @@
+"""``match``: the one way from fills (and financing, and carried lots) to a :class:`Book`."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import pandas as pd
+
+from reconcile import schema
+from reconcile.core.book import Book, build_book
+from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
+from reconcile.core.engine import Progress, replay
+from reconcile.errors import ConfigError
+from reconcile.money import ROUNDING_MODES, Rounding, exact_arithmetic
+
+
+@exact_arithmetic
+def match(
+    fills: pd.DataFrame,
+    financing: pd.DataFrame | None = None,
+    *,
+    opening: pd.DataFrame | None = None,
+    method: schema.Method = "fifo",
+    commission: schema.CommissionConvention = "at-close",
+    rounding: Rounding = "half-even",
+    timezone: str | None = None,
+    progress: Progress | None = None,
+) -> Book:
+    """Match fills into closed lots, round trips, open lots and positions.
+
+    ``fills``, ``financing`` and ``opening`` are DataFrames in the canonical columns (what the
+    readers return; raw text values are accepted and validated too). ``method`` is ``fifo``,
+    ``lifo``, ``hifo`` or ``average``; ``commission`` is ``at-close`` (opening commission stays in
+    the lot's basis until it closes) or ``at-fill`` (every commission is realized when paid).
+    ``timezone`` places times that carry no UTC offset. ``progress(done, total)`` is called as
+    (account, instrument) keys finish.
+    """
+    check_choice("method", method, schema.METHODS)
+    check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
+    check_choice("rounding", rounding, tuple(ROUNDING_MODES))
+    fills = canonical_fills(fills, source=_label(fills, "fills"), timezone=timezone)
+    if financing is not None:
+        financing = canonical_financing(
+            financing, source=_label(financing, "financing"), timezone=timezone
+        )
+    if opening is not None:
+        opening = canonical_opening(opening, source=_label(opening, "opening"), timezone=timezone)
+    run = replay(fills, financing, opening, method, commission, progress)
+    return build_book(run, method, rounding)
+
+
+def check_choice(option: str, value: str, choices: Sequence[str]) -> None:
+    if value not in choices:
+        raise ConfigError(f"{option}: expected one of {', '.join(choices)}, found {value!r}")
+
+
+def _label(frame: pd.DataFrame, default: str) -> str:
+    summary = frame.attrs.get("read_summary")
+    return str(summary["source"]) if isinstance(summary, dict) else default

@@ -1,0 +1,1 @@
+"""Renderers: results shown to a person (terminal, and later HTML and Excel)."""

@@ -1,0 +1,98 @@
+"""Terminal output: short rich summaries on stdout, progress on stderr."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+from rich import box
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+from rich.table import Table
+
+from reconcile.core.book import Book
+from reconcile.core.summary import currency_totals
+from reconcile.io.writers.tables import decimal_text
+from reconcile.notice import CAUTION
+
+
+def console(stderr: bool = False) -> Console:
+    """A console that respects COLUMNS and NO_COLOR, with no colour when not on a terminal."""
+    width = int(os.environ["COLUMNS"]) if os.environ.get("COLUMNS", "").isdigit() else None
+    return Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+
+
+@contextmanager
+def progress_bar(label: str) -> Iterator[Any]:
+    """A transient progress bar on stderr; yields a ``(done, total)`` callback."""
+    err = console(stderr=True)
+    bar = Progress(
+        TextColumn(label),
+        BarColumn(),
+        MofNCompleteColumn(),
+        TimeElapsedColumn(),
+        console=err,
+        transient=True,
+        disable=not err.is_terminal,
+    )
+    task = bar.add_task(label, total=None)
+    with bar:
+        yield lambda done, total: bar.update(task, completed=done, total=total)
+
+
+def match_summary(
+    out: Console, book: Book, inputs: Sequence[Mapping[str, Any]], written: Sequence[Path]
+) -> None:
+    method = book.method.upper() if book.method != "average" else "average cost"
+    for n, read in enumerate(inputs):
+        prefix = "Matched" if n == 0 else "  with"
+        noun = "fills" if n == 0 else read.get("kind", "rows")
+        line = f"{prefix} {read['accepted']:,} {noun} from {read['source']}"
+        if read.get("duplicates_dropped"):
+            line += f" ({read['duplicates_dropped']:,} exact repeats dropped)"
+        out.print(line)
+    out.print(f"Relief {method}, commission {book.commission}, rounding {book.rounding}")
+    out.print(_counts(book))
+    out.print(_totals(currency_totals(book)))
+    if written:
+        folder = written[0].parent
+        out.print(f"Results in {folder}{os.sep}: " + ", ".join(p.name for p in written))
+    out.print(CAUTION, style="dim")
+
+
+def _counts(book: Book) -> Table:
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False)
+    counts = {name.replace("_", " "): len(frame) for name, frame in book.tables().items()}
+    for name in counts:
+        table.add_column(name, justify="right")
+    table.add_row(*(f"{n:,}" for n in counts.values()))
+    return table
+
+
+def _totals(totals: pd.DataFrame) -> Table:
+    table = Table(
+        title="Realized by currency",
+        title_justify="left",
+        box=box.SIMPLE_HEAD,
+        show_edge=False,
+        pad_edge=False,
+    )
+    table.add_column("currency")
+    money = [c for c in totals.columns if c != "currency"]
+    for name in money:
+        table.add_column(name.replace("_", " "), justify="right")
+    for row in totals.to_dict(orient="records"):
+        table.add_row(row["currency"], *(_amount(row[c], row["currency"]) for c in money))
+    return table
+
+
+def _amount(value: Any, currency: str) -> str:
+    text = decimal_text(value, currency) or ""
+    whole, dot, fraction = text.partition(".")
+    sign = "-" if whole.startswith("-") else ""
+    digits = whole.lstrip("-")
+    return f"{sign}{int(digits):,}{dot}{fraction}"
