@@ -66,6 +66,8 @@ class _Checker:
         if column not in self.frame.columns:
             return pa.array([default] * len(self.frame), pa.string())
         values = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
+        # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula.
+        values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
         if required:
             blank = _positions(pc.equal(values, ""))
             self.add(blank, column, "a non-empty value", [""] * len(blank), "blank value")

@@ -93,3 +93,20 @@ def test_a_failed_write_leaves_nothing_behind(tmp_path: Path) -> None:
 def test_an_unknown_format(tmp_path: Path) -> None:
     with pytest.raises(OutputError, match="expected one of csv, parquet, json"):
         write_tables({}, tmp_path, "xml")
+
+
+def test_csv_text_that_a_spreadsheet_would_run_is_inert_and_reads_back(tmp_path: Path) -> None:
+    names = ['=HYPERLINK("http://x")', "+1+1", "-2", "@SUM(A1)", "plain"]
+    rows = [(f"b{n}", "buy", 1, "10", f"2026-11-0{n + 2}") for n in range(len(names))]
+    frame = pd.concat(
+        [fills(rows[n : n + 1], instrument=name) for n, name in enumerate(names)], ignore_index=True
+    )
+    book = reconcile.match(frame)
+    write_tables(book.tables(), tmp_path, "csv")
+    text = (tmp_path / "open_lots.csv").read_text()
+    assert '"\'=HYPERLINK(""http://x"")"' in text
+    assert '"\'+1+1"' in text
+    assert '"\'@SUM(A1)"' in text
+    assert '"\'-2"' in text
+    carried = reconcile.read_opening(tmp_path / "open_lots.csv")
+    assert sorted(carried["instrument"]) == sorted(names)

@@ -16,7 +16,7 @@ from rich.table import Table
 
 from reconcile.core.book import Book
 from reconcile.core.summary import currency_totals
-from reconcile.io.writers.tables import decimal_text
+from reconcile.io.render.numbers import grouped
 from reconcile.notice import CAUTION
 
 
@@ -91,8 +91,4 @@ def _totals(totals: pd.DataFrame) -> Table:
 
 
 def _amount(value: Any, currency: str) -> str:
-    text = decimal_text(value, currency) or ""
-    whole, dot, fraction = text.partition(".")
-    sign = "-" if whole.startswith("-") else ""
-    digits = whole.lstrip("-")
-    return f"{sign}{int(digits):,}{dot}{fraction}"
+    return grouped(value, currency)

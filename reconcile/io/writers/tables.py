@@ -39,13 +39,36 @@ def write_tables(
     return written
 
 
-def text_table(frame: pd.DataFrame) -> pd.DataFrame:
-    """The table as exact text: amounts in the row's currency's minor unit, times in ISO 8601."""
+#: A spreadsheet treats a cell starting with one of these as a formula.
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def text_table(frame: pd.DataFrame, *, spreadsheet_safe: bool = False) -> pd.DataFrame:
+    """The table as exact text: amounts in the row's currency's minor unit, times in ISO 8601.
+
+    With ``spreadsheet_safe``, text that a spreadsheet would run as a formula gets a leading
+    apostrophe (``=HYPERLINK(..)`` -> ``'=HYPERLINK(..)``); the readers remove exactly that
+    apostrophe again, so a file written here reads back unchanged.
+    """
     out = pd.DataFrame(index=frame.index)
     currencies = frame["currency"] if "currency" in frame.columns else None
     for name in frame.columns:
-        out[name] = _text_column(frame[name], name, currencies)
+        column = _text_column(frame[name], name, currencies)
+        if spreadsheet_safe and _is_text(frame[name]):
+            column = column.map(neutralise, na_action="ignore")
+        out[name] = column
     return out
+
+
+def neutralise(text: str) -> str:
+    """Make text inert in a spreadsheet: prefix an apostrophe to a would-be formula."""
+    return "'" + text if text.startswith(FORMULA_TRIGGERS) else text
+
+
+def _is_text(series: pd.Series) -> bool:
+    return pd.api.types.is_string_dtype(series.dtype) and not isinstance(
+        series.dtype, pd.ArrowDtype
+    )
 
 
 def _text_column(series: pd.Series, name: str, currencies: pd.Series | None) -> pd.Series:
@@ -88,7 +111,7 @@ def decimal_text(value: Decimal | None, currency: str | None = None) -> str | No
 
 def _csv(frame: pd.DataFrame) -> Any:
     def write(path: Path) -> None:
-        table = pa.Table.from_pandas(text_table(frame), preserve_index=False)
+        table = pa.Table.from_pandas(text_table(frame, spreadsheet_safe=True), preserve_index=False)
         pa_csv.write_csv(table, path, pa_csv.WriteOptions(quoting_style="needed"))
 
     return write
