@@ -182,9 +182,9 @@ class _Converter:
                 )
             return self._text(exact)
         places = self.places[column]
-        binary = Decimal(value)
+        binary = Decimal.from_float(value)  # the one deliberate float-to-decimal step
         nearest = binary.quantize(Decimal(1).scaleb(-places), rounding=ROUND_HALF_EVEN)
-        close = abs(binary - nearest) <= ULP_TOLERANCE * Decimal(math.ulp(value))
+        close = abs(binary - nearest) <= ULP_TOLERANCE * Decimal.from_float(math.ulp(value))
         if not close or len(nearest.as_tuple().digits) > DOUBLE_DIGITS:
             return self._bad(
                 column,
