@@ -97,7 +97,7 @@ def _require_sources(raw: pd.DataFrame, profile: Profile, source: str) -> None:
     ]
     if not missing:
         return
-    named = ", ".join(f"{c!r} (profile key columns.{n})" for n, c in missing)
+    named = ", ".join(f"{c!r} ({profile.origin} key columns.{n})" for n, c in missing)
     raise MissingColumnsError(
         f"{source}: the profile names columns the file does not have: {named}; "
         f"the header has: {', '.join(present) or '(nothing)'}",

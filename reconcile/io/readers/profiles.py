@@ -13,7 +13,7 @@ import tomllib
 from pathlib import Path
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, field_validator, model_validator
 from pydantic import ValidationError as PydanticError
 
 from reconcile import schema
@@ -133,6 +133,12 @@ class Profile(_Strict):
     time: TimeOptions = TimeOptions()
     signs: SignOptions = SignOptions()
     fix: FixOptions = FixOptions()
+    _origin: str = PrivateAttr(default="profile")
+
+    @property
+    def origin(self) -> str:
+        """The profile file it was read from, for messages."""
+        return self._origin
 
     @model_validator(mode="after")
     def _canonical_names(self) -> Profile:
@@ -199,9 +205,11 @@ def load_profile(path: Path | str) -> Profile:
 
 def profile_from_dict(data: dict[str, Any], label: str = "profile") -> Profile:
     try:
-        return Profile.model_validate(data)
+        profile = Profile.model_validate(data)
     except PydanticError as exc:
         raise ConfigError(_describe(label, exc)) from None
+    profile._origin = label
+    return profile
 
 
 def _describe(label: str, exc: PydanticError) -> str:

@@ -140,8 +140,8 @@ def check_summary(
     listed: int = 20,
 ) -> None:
     """What ``check`` shows: the row equation, rejections by reason, the first problems."""
-    out.print(f"Checked {read['source']}", markup=False)
-    out.print(f"  {equation(read)}", markup=False)
+    out.print(f"Checked {read['source']}", markup=False, soft_wrap=True)
+    out.print(f"  {equation(read)}", markup=False, soft_wrap=True)
     if read.get("skipped_by_kind"):
         skipped = ", ".join(f"{k} {v:,}" for k, v in read["skipped_by_kind"].items())
         out.print(f"  skipped: {skipped}", markup=False)
@@ -166,7 +166,7 @@ def check_summary(
             else "Problems:"
         )
         for problem in problems[:listed]:
-            out.print(f"  {problem}", markup=False)
+            out.print(f"  {problem}", markup=False, soft_wrap=True)
     if rejects is not None:
         out.print(f"Rejected rows in {rejects}", markup=False)
     out.print(CAUTION, style="dim")
