@@ -157,9 +157,7 @@ def show_match(
     book: Book, inputs: Inputs, written: list[Path], rejects: Path | None = None
 ) -> None:
     show_warnings(inputs)
-    terminal.match_summary(terminal.console(), book, inputs.summaries(), written)
-    if rejects is not None:
-        terminal.console().print(f"Rejected rows in {rejects}")
+    terminal.match_summary(terminal.console(), book, inputs.summaries(), written, rejects)
 
 
 def check_file(

@@ -45,7 +45,11 @@ def progress_bar(label: str) -> Iterator[Any]:
 
 
 def match_summary(
-    out: Console, book: Book, inputs: Sequence[Mapping[str, Any]], written: Sequence[Path]
+    out: Console,
+    book: Book,
+    inputs: Sequence[Mapping[str, Any]],
+    written: Sequence[Path],
+    rejects: Path | None = None,
 ) -> None:
     method = book.method.upper() if book.method != "average" else "average cost"
     for n, read in enumerate(inputs):
@@ -63,6 +67,8 @@ def match_summary(
     if written:
         folder = written[0].parent
         out.print(f"Results in {folder}{os.sep}: " + ", ".join(p.name for p in written))
+    if rejects is not None:
+        out.print(f"Rejected rows in {rejects}", markup=False)
     out.print(CAUTION, style="dim")
 
 
@@ -106,7 +112,7 @@ TERMS = (
     ("rejected", "rejected"),
     ("duplicates_dropped", "exact repeats dropped"),
     ("superseded", "superseded"),
-    ("cancels", "cancels"),
+    ("cancels", "cancel messages"),
     ("resent", "resent"),
     ("skipped", "skipped"),
 )
