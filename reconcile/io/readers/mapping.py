@@ -113,6 +113,18 @@ def _text(series: pd.Series) -> pd.Series:
 def _number_column(
     raw: pd.DataFrame, sources: list[str], numbers: NumberOptions, report: _Reporter
 ) -> pd.Series:
+    for column in sources:
+        if pd.api.types.is_float_dtype(raw[column].dtype):
+            report.problems.append(
+                Problem(
+                    report.source,
+                    "exact decimal values (text or a decimal type)",
+                    str(raw[column].dtype),
+                    None,
+                    column,
+                    "binary floating-point column",
+                )
+            )
     parts = [_plain_number(_text(raw[s]), s, numbers, report) for s in sources]
     if len(parts) == 1:
         return parts[0]
