@@ -52,7 +52,8 @@ def test_check_counts_rows_lists_problems_and_exits_2(workdir: Path) -> None:
         "unknown value      1",
         "Problems:",
         "  fills.csv row 3, column quantity: expected a decimal > 0, found '-5'",
-        "  fills.csv row 3, column side: expected buy or sell (also B or S, any case), found 'hold'",
+        "  fills.csv row 3, column side: expected buy or sell (also B or S, any case), "
+        "found 'hold'",
         "  fills.csv row 7, column price: expected a decimal number (finite, plain digits), found "
         "'12x0'",
         "Rejected rows in rejects.csv",
