@@ -79,6 +79,7 @@ COMM_TYPES = ("1", "2", "3", "6", "7", "8")
 #: Session-level tags that differ between a message and its resend.
 SESSION_TAGS = frozenset({"8", "9", "10", "34", "43", "52", "97", "122", "369"})
 LEGACY = ("FIX.4.0", "FIX.4.1", "FIX.4.2")
+_FIELDS = re.compile(r"(?:[0-9]+=[^\x01]*\x01)+")
 _TIME = re.compile(r"^([0-9]{4})([0-9]{2})([0-9]{2})-([0-9]{2}:[0-9]{2}:[0-9]{2})(\.[0-9]{1,9})?$")
 
 
@@ -93,7 +94,7 @@ class Message:
     tags: dict[str, str]
 
     def get(self, tag: str) -> str:
-        return self.tags.get(tag, "")
+        return self.tags.get(tag) or ""
 
     def content(self) -> dict[str, str]:
         return {t: v for t, v in self.tags.items() if t not in SESSION_TAGS}
@@ -132,6 +133,7 @@ class _Reader:
     seen: dict[tuple[str, str, str, str], Message] = field(default_factory=dict)
     live: dict[int, _Fill] = field(default_factory=dict)
     alias: dict[tuple[str, str, str], int] = field(default_factory=dict)
+    instrument_tags: list[str] = field(default_factory=list)
 
     def problem(self, line: int, column: str | None, expected: str, found: str | None) -> None:
         self.problems.append(Problem(self.source, expected, found, line, column, "bad message"))
@@ -171,13 +173,11 @@ class _Reader:
         fields = body.split(delimiter)
         if fields and fields[-1] == "":
             fields.pop()
-        pairs = []
-        for position, item in enumerate(fields, start=1):
-            tag, equals, value = item.partition("=")
-            if not equals or not tag.isdigit():
-                self.problem(line, f"field {position}", "a tag=value field", item)
-                return None
-            pairs.append((tag, value))
+        wire = delimiter.join(fields) + delimiter
+        if _FIELDS.fullmatch(wire if delimiter == SOH else wire.replace("|", SOH)) is None:
+            self.report_bad_field(line, fields)
+            return None
+        pairs = [(tag, value) for tag, _, value in (item.partition("=") for item in fields)]
         order = [t for t, _ in pairs]
         if order[:3] != ["8", "9", "35"] or order[-1] != "10":
             self.problem(
@@ -190,6 +190,13 @@ class _Reader:
         if not self.check_frame(line, body, delimiter, pairs):
             return None
         return Message(line, body, dict(pairs))
+
+    def report_bad_field(self, line: int, fields: list[str]) -> None:
+        for position, item in enumerate(fields, start=1):
+            tag, equals, _ = item.partition("=")
+            if not equals or not tag.isdigit():
+                self.problem(line, f"field {position}", "a tag=value field", item)
+                return
 
     def check_frame(
         self, line: int, body: str, delimiter: str, pairs: list[tuple[str, str]]
@@ -327,7 +334,10 @@ class _Reader:
         return len(self.problems) == before
 
     def options_tags(self) -> list[str]:
-        return [str(t) for t in self.options.instrument if t != 55]
+        return self.instrument_tags
+
+    def __post_init__(self) -> None:
+        self.instrument_tags = [str(t) for t in self.options.instrument if t != 55]
 
     def fill_row(self, fill: _Fill) -> dict[str, object] | None:
         tags = {**fill.original.tags, **{k: v for k, v in fill.message.tags.items() if v}}
