@@ -18,6 +18,7 @@ $(STAMP): pyproject.toml constraints.txt
 demo: $(STAMP)
 	$(BIN)/reconcile match sample_data/fills.csv --financing sample_data/financing.csv \
 		--out $(DEMO_OUT)/match
+	for s in brightwater:brightwater-fills.csv quayside:quayside-futures.xlsx kestrel:kestrel-dropcopy.fix; do $(BIN)/reconcile match sample_data/profiles/$${s#*:} --profile sample_data/profiles/$${s%%:*}.toml --rejects $(DEMO_OUT)/$${s%%:*}/rejects.csv --out $(DEMO_OUT)/$${s%%:*} || exit 1; done
 	@echo "Demo results are in $(DEMO_OUT)/"
 
 test: lint typecheck unit
@@ -37,6 +38,7 @@ benchmark: $(STAMP)
 
 sample-data: $(STAMP)
 	$(BIN)/python sample_data/generate.py
+	$(BIN)/python sample_data/generate_sources.py
 
 clean:
 	rm -rf $(VENV) $(DEMO_OUT) .mypy_cache .pytest_cache .ruff_cache .hypothesis

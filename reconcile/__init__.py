@@ -22,15 +22,17 @@ if TYPE_CHECKING:
     from reconcile.core.book import Book
     from reconcile.core.matching import match
     from reconcile.core.summary import currency_totals
-    from reconcile.io.readers import read_fills, read_financing, read_opening
+    from reconcile.io.readers import check, load_profile, read_fills, read_financing, read_opening
     from reconcile.io.writers.tables import write_tables
     from reconcile.money import allocate, minor_unit, round_money
 
 __all__ = [
     "Book",
     "allocate",
+    "check",
     "currency_totals",
     "errors",
+    "load_profile",
     "match",
     "minor_unit",
     "read_fills",
@@ -52,6 +54,8 @@ _HOMES = {
     "read_opening": "reconcile.io.readers",
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
+    "check": "reconcile.io.readers",
+    "load_profile": "reconcile.io.readers",
 }
 
 

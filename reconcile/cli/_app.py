@@ -72,7 +72,41 @@ Rounding = Annotated[
 ]
 OutDir = Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")]
 InputFile = Annotated[
-    Path, typer.Argument(metavar="FILLS", help="Fills file (CSV or Parquet).", show_default=False)
+    Path,
+    typer.Argument(
+        metavar="FILLS",
+        help="Fills file: CSV/TSV, Parquet, Excel, JSON lines or a FIX log.",
+        show_default=False,
+    ),
+]
+ProfileFile = Annotated[
+    Path | None,
+    typer.Option(
+        "--profile", metavar="FILE", help="Column profile (TOML) mapping the source to our columns."
+    ),
+]
+InputFormat = Annotated[
+    str | None,
+    typer.Option(
+        "--input-format",
+        metavar="csv|tsv|parquet|excel|jsonl|fix",
+        help="Format of the input, when its extension does not say.",
+    ),
+]
+RejectsFile = Annotated[
+    Path | None,
+    typer.Option(
+        "--rejects",
+        metavar="FILE",
+        help="Set bad rows aside in this CSV (with every reason) and go on with the rest.",
+    ),
+]
+FixLenient = Annotated[
+    bool,
+    typer.Option(
+        "--fix-lenient",
+        help="Keep FIX messages with a wrong BodyLength or CheckSum, with a warning.",
+    ),
 ]
 
 

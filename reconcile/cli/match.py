@@ -10,9 +10,13 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    FixLenient,
     InputFile,
+    InputFormat,
     Method,
     OutDir,
+    ProfileFile,
+    RejectsFile,
     Rounding,
     Timezone,
     app,
@@ -46,11 +50,26 @@ def match_command(
         str,
         typer.Option("--format", metavar="csv|parquet|json", help="Format of the tables written."),
     ] = "csv",
+    profile: ProfileFile = None,
+    input_format: InputFormat = None,
+    rejects: RejectsFile = None,
+    fix_lenient: FixLenient = False,
 ) -> None:
     """Match fills into closed lots, round trips, open lots and positions."""
     from reconcile.io import session
 
-    inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    inputs = session.read_inputs(
+        fills,
+        financing,
+        opening,
+        timezone=timezone,
+        dedupe=dedupe,
+        profile=profile,
+        input_format=input_format,
+        keep_rejects=rejects is not None,
+        fix_lenient=fix_lenient,
+    )
     book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
     written = session.write_book(book, inputs, out, fmt)
-    session.show_match(book, inputs, written)
+    session.finish_rejects(inputs, rejects)
+    session.show_match(book, inputs, written, rejects)

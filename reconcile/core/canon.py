@@ -20,7 +20,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from reconcile import schema
-from reconcile.errors import MissingColumnsError, Problem, raise_if_problems
+from reconcile.errors import MissingColumnsError, Problem, ValidationError, raise_if_problems
 from reconcile.money import is_known_currency, minor_unit
 from reconcile.timezones import zone
 
@@ -588,3 +588,40 @@ def canonical_opening(
 def _raise(check: _Checker) -> None:
     ordered = sorted(check.problems, key=lambda p: (p.row or 0, p.column or ""))
     raise_if_problems(check.source, ordered)
+
+
+Canonicaliser = Callable[..., pd.DataFrame]
+
+
+def screen(
+    convert: Canonicaliser, frame: pd.DataFrame, *, source: str, **options: Any
+) -> tuple[pd.DataFrame, dict[int, list[Problem]]]:
+    """Run ``convert`` (e.g. :func:`canonical_fills`) but set bad rows aside instead of raising.
+
+    Returns the canonical frame of the rows that pass and, by source row, the problems of each row
+    set aside. Rows are screened until what is left passes, since removing a row can bring out
+    another (the second currency of an instrument once the first row that disagreed is gone).
+    A problem that names no row (a column of binary floats) concerns every row and still raises.
+    """
+    frame = frame.reset_index(drop=True)
+    if schema.SOURCE_ROW not in frame.columns:
+        frame = frame.assign(**{schema.SOURCE_ROW: _source_rows(frame)})
+    rejected: dict[int, list[Problem]] = {}
+    remaining = frame
+    while True:
+        try:
+            result = convert(remaining, source=source, **options)
+        except ValidationError as error:
+            rows = {p.row for p in error.problems}
+            present = set(remaining[schema.SOURCE_ROW].tolist())
+            if None in rows or not rows & present:
+                raise
+            for problem in error.problems:
+                rejected.setdefault(int(problem.row or 0), []).append(problem)
+            remaining = remaining[~remaining[schema.SOURCE_ROW].isin(rows)]
+            continue
+        summary = dict(result.attrs.get("read_summary") or {"source": source})
+        summary.update(rows_read=len(frame), accepted=len(result), rejected=len(rejected))
+        summary.setdefault("duplicates_dropped", 0)
+        result.attrs["read_summary"] = summary
+        return result, rejected

@@ -1,4 +1,8 @@
-"""Readers: files in, canonical frames out (every value validated, every problem reported)."""
+"""Readers: files in, canonical frames out (every value validated, every problem reported).
+
+Any supported format (CSV/TSV, Parquet, Excel, JSON lines, FIX logs), optionally mapped through a
+column profile, goes through :func:`~reconcile.io.readers.sources.read_source`.
+"""
 
 from __future__ import annotations
 
@@ -6,10 +10,22 @@ from pathlib import Path
 
 import pandas as pd
 
-from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
+from reconcile.core.canon import canonical_opening
+from reconcile.io.readers.profiles import Profile, load_profile
+from reconcile.io.readers.sources import ProfileLike, Source, read_source
 from reconcile.io.readers.tabular import read_table
 
-__all__ = ["read_fills", "read_financing", "read_opening", "read_table"]
+__all__ = [
+    "Profile",
+    "Source",
+    "check",
+    "load_profile",
+    "read_fills",
+    "read_financing",
+    "read_opening",
+    "read_source",
+    "read_table",
+]
 
 
 def read_fills(
@@ -18,10 +34,19 @@ def read_fills(
     timezone: str | None = None,
     dedupe: bool = False,
     input_format: str | None = None,
+    profile: ProfileLike = None,
+    fix_lenient: bool = False,
 ) -> pd.DataFrame:
-    """Read and validate a fills file (CSV or Parquet) into the canonical fill columns."""
-    raw = read_table(path, input_format)
-    return canonical_fills(raw, source=str(path), timezone=timezone, dedupe=dedupe)
+    """Read and validate a fills file (any supported format) into the canonical fill columns."""
+    return read_source(
+        path,
+        "fills",
+        profile=profile,
+        input_format=input_format,
+        timezone=timezone,
+        dedupe=dedupe,
+        fix_lenient=fix_lenient,
+    ).frame
 
 
 def read_financing(
@@ -30,10 +55,17 @@ def read_financing(
     timezone: str | None = None,
     dedupe: bool = False,
     input_format: str | None = None,
+    profile: ProfileLike = None,
 ) -> pd.DataFrame:
     """Read and validate a financing-events file into the canonical financing columns."""
-    raw = read_table(path, input_format)
-    return canonical_financing(raw, source=str(path), timezone=timezone, dedupe=dedupe)
+    return read_source(
+        path,
+        "financing",
+        profile=profile,
+        input_format=input_format,
+        timezone=timezone,
+        dedupe=dedupe,
+    ).frame
 
 
 def read_opening(
@@ -42,3 +74,26 @@ def read_opening(
     """Read open lots carried in from an earlier period (the ``open_lots`` table of ``match``)."""
     raw = read_table(path, input_format)
     return canonical_opening(raw, source=str(path), timezone=timezone)
+
+
+def check(
+    path: Path | str,
+    *,
+    kind: str = "fills",
+    profile: ProfileLike = None,
+    input_format: str | None = None,
+    timezone: str | None = None,
+    dedupe: bool = False,
+    fix_lenient: bool = False,
+) -> Source:
+    """Validate a file without matching: accepted rows, rejected rows with reasons, counts."""
+    return read_source(
+        path,
+        kind,
+        profile=profile,
+        input_format=input_format,
+        timezone=timezone,
+        dedupe=dedupe,
+        keep_rejects=True,
+        fix_lenient=fix_lenient,
+    )

@@ -1,36 +1,40 @@
-"""Read CSV and Parquet files into frames of raw values, with file-level errors that name the row.
+"""Read a file of rows into a frame of raw values, choosing the reader by format.
 
-Every CSV cell is read as text, so no value passes through a binary float on the way in; the core's
-canonicaliser then parses decimals exactly. pyarrow does the reading; when it rejects a file, the
-standard ``csv`` module re-reads it only to find and name the offending row.
+The format comes from the extension, or is forced (``--input-format`` or a profile's
+``source.format``). Delimited text, Excel sheets and JSON lines arrive as text; Parquet decimal and
+timestamp columns arrive typed. Each reader adds ``source_row`` so later errors can name the row.
+FIX logs are not rows of columns: :mod:`reconcile.io.readers.fix` reads them.
 """
 
 from __future__ import annotations
 
-import csv
-import io
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 import pyarrow as pa
-import pyarrow.csv as pa_csv
 import pyarrow.parquet as pq
 
-from reconcile.errors import (
-    InputError,
-    Problem,
-    SourceEmptyError,
-    SourceNotFoundError,
-    ValidationError,
-)
-from reconcile.schema import SOURCE_ROW
+from reconcile.errors import InputError, SourceEmptyError, SourceNotFoundError
+from reconcile.io.readers.delimited import Dialect, read_delimited
 
-#: Files up to this size are re-read to number rows by line when records span lines.
-LINE_SCAN_LIMIT = 64 * 1024 * 1024
-
-FORMATS = ("csv", "parquet")
-_SUFFIXES = {".csv": "csv", ".txt": "csv", ".parquet": "parquet", ".pq": "parquet"}
+FORMATS = ("csv", "tsv", "parquet", "excel", "jsonl", "fix")
+_SUFFIXES = {
+    ".csv": "csv",
+    ".txt": "csv",
+    ".tsv": "tsv",
+    ".tab": "tsv",
+    ".parquet": "parquet",
+    ".pq": "parquet",
+    ".xlsx": "excel",
+    ".xlsm": "excel",
+    ".xlsb": "excel",
+    ".xls": "excel",
+    ".ods": "excel",
+    ".jsonl": "jsonl",
+    ".ndjson": "jsonl",
+    ".fix": "fix",
+    ".log": "fix",
+}
 
 
 def detect_format(path: Path, forced: str | None = None) -> str:
@@ -49,17 +53,49 @@ def detect_format(path: Path, forced: str | None = None) -> str:
     return fmt
 
 
-def read_table(path: Path | str, forced_format: str | None = None) -> pd.DataFrame:
-    """The file's rows as a DataFrame of raw values (CSV: all text), header row 1."""
+def read_table(
+    path: Path | str,
+    forced_format: str | None = None,
+    *,
+    dialect: Dialect | None = None,
+    sheet: str | int | None = None,
+    places: dict[str, int] | None = None,
+    decimal_mark: str = ".",
+    header_row: int | None = None,
+) -> pd.DataFrame:
+    """The file's rows as a DataFrame of raw values (text but for typed Parquet columns).
+
+    ``dialect`` says how delimited text is written; ``sheet``, ``places`` (decimal places of the
+    numeric columns) and ``decimal_mark`` are for Excel, whose numeric cells are doubles.
+    """
     path = Path(path)
-    _check_exists(path)
+    check_exists(path)
     fmt = detect_format(path, forced_format)
     if fmt == "parquet":
         return _read_parquet(path)
-    return _read_csv(path)
+    if fmt == "excel":
+        from reconcile.io.readers.excel import read_excel
+
+        return read_excel(
+            path,
+            sheet=sheet,
+            places=places or {},
+            decimal_mark=decimal_mark,
+            header_row=header_row,
+        )
+    if fmt == "jsonl":
+        from reconcile.io.readers.jsonl import read_jsonl
+
+        return read_jsonl(path)
+    if fmt == "fix":
+        raise InputError(f"{path}: a FIX log holds messages, not rows; read it as fills")
+    dialect = dialect or Dialect()
+    if fmt == "tsv" and dialect.delimiter == ",":
+        dialect = Dialect("\t", dialect.encoding, dialect.header_row)
+    return read_delimited(path, dialect)
 
 
-def _check_exists(path: Path) -> None:
+def check_exists(path: Path) -> None:
     if not path.exists():
         raise SourceNotFoundError(f"{path}: no such file")
     if not path.is_file():
@@ -68,132 +104,6 @@ def _check_exists(path: Path) -> None:
         raise SourceEmptyError(
             f"{path}: the file is empty; expected a header row naming the columns"
         )
-
-
-def _read_csv(path: Path) -> pd.DataFrame:
-    header = _csv_header(path)
-    types = {name: pa.string() for name in header}
-    try:
-        table = pa_csv.read_csv(
-            path,
-            read_options=pa_csv.ReadOptions(encoding="utf8"),
-            parse_options=pa_csv.ParseOptions(newlines_in_values=True),
-            convert_options=pa_csv.ConvertOptions(
-                column_types=types, strings_can_be_null=False, quoted_strings_can_be_null=False
-            ),
-        )
-    except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
-        raise _diagnose_csv(path, header, exc) from exc
-    frame: pd.DataFrame = table.to_pandas()
-    frame[SOURCE_ROW] = _record_lines(path, table.num_rows)
-    return frame
-
-
-def _record_lines(path: Path, records: int) -> np.ndarray:
-    """The line each record starts on (header = 1), so errors point at what an editor shows.
-
-    Records and lines differ only when the file has blank lines or line breaks inside quoted
-    fields; only then, and only for files up to :data:`LINE_SCAN_LIMIT` bytes, is the file
-    re-read to map one to the other. Larger such files number records instead.
-    """
-    plain = np.arange(2, records + 2, dtype=np.int64)
-    if path.stat().st_size > LINE_SCAN_LIMIT:
-        return plain
-    raw = path.read_bytes()
-    if b"\n\n" not in raw and b"\n\r\n" not in raw and b'"' not in raw:
-        return plain
-    reader = csv.reader(io.StringIO(raw.decode("utf-8-sig"), newline=""))
-    starts, line = [], 1
-    for record in reader:
-        if record:
-            starts.append(line)
-        line = reader.line_num + 1
-    lines = np.asarray(starts[1:], dtype=np.int64)
-    return lines if len(lines) == records else plain
-
-
-def _csv_header(path: Path) -> list[str]:
-    with path.open("r", encoding="utf-8-sig", newline="", errors="replace") as handle:
-        first = next(csv.reader(handle), [])
-    names = [name.strip() for name in first]
-    if not any(names):
-        raise SourceEmptyError(f"{path}: row 1 is blank; expected a header row naming the columns")
-    problems = [
-        Problem(str(path), "a name for every column", "", 1, f"#{i + 1}", "blank header")
-        for i, name in enumerate(names)
-        if not name
-    ]
-    seen: dict[str, int] = {}
-    for i, name in enumerate(names):
-        if name and name in seen:
-            problems.append(
-                Problem(
-                    str(path),
-                    f"each column named once (also column #{seen[name]})",
-                    name,
-                    1,
-                    f"#{i + 1}",
-                    "repeated header",
-                )
-            )
-        seen.setdefault(name, i + 1)
-    if problems:
-        raise ValidationError(str(path), problems)
-    return first
-
-
-def _diagnose_csv(path: Path, header: list[str], exc: Exception) -> InputError:
-    """Find the row pyarrow rejected, by re-reading with the strict standard reader."""
-    raw = path.read_bytes()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as bad:
-        line = raw[: bad.start].count(b"\n") + 1
-        return ValidationError(
-            str(path),
-            [
-                Problem(
-                    str(path),
-                    "UTF-8 text (declare another encoding with a profile)",
-                    repr(raw[bad.start : bad.start + 4]),
-                    line,
-                    None,
-                    "bad encoding",
-                )
-            ],
-        )
-    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
-    try:
-        for record in reader:
-            if reader.line_num > 1 and len(record) != len(header) and any(record):
-                return ValidationError(
-                    str(path),
-                    [
-                        Problem(
-                            str(path),
-                            f"{len(header)} fields as in the header",
-                            f"{len(record)} fields",
-                            reader.line_num,
-                            None,
-                            "wrong field count",
-                        )
-                    ],
-                )
-    except csv.Error as bad:
-        return ValidationError(
-            str(path),
-            [
-                Problem(
-                    str(path),
-                    "well-formed CSV quoting",
-                    str(bad),
-                    reader.line_num + 1,
-                    None,
-                    "bad quoting",
-                )
-            ],
-        )
-    return InputError(f"{path}: cannot be read as CSV: {exc}")
 
 
 def _read_parquet(path: Path) -> pd.DataFrame:

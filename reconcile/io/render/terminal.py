@@ -45,7 +45,11 @@ def progress_bar(label: str) -> Iterator[Any]:
 
 
 def match_summary(
-    out: Console, book: Book, inputs: Sequence[Mapping[str, Any]], written: Sequence[Path]
+    out: Console,
+    book: Book,
+    inputs: Sequence[Mapping[str, Any]],
+    written: Sequence[Path],
+    rejects: Path | None = None,
 ) -> None:
     method = book.method.upper() if book.method != "average" else "average cost"
     for n, read in enumerate(inputs):
@@ -55,12 +59,16 @@ def match_summary(
         if read.get("duplicates_dropped"):
             line += f" ({read['duplicates_dropped']:,} exact repeats dropped)"
         out.print(line)
+        if _has_more_than_accepted(read):
+            out.print(f"    {equation(read)}")
     out.print(f"Relief {method}, commission {book.commission}, rounding {book.rounding}")
     out.print(_counts(book))
     out.print(_totals(currency_totals(book)))
     if written:
         folder = written[0].parent
         out.print(f"Results in {folder}{os.sep}: " + ", ".join(p.name for p in written))
+    if rejects is not None:
+        out.print(f"Rejected rows in {rejects}", markup=False)
     out.print(CAUTION, style="dim")
 
 
@@ -92,3 +100,75 @@ def _totals(totals: pd.DataFrame) -> Table:
 
 def _amount(value: Any, currency: str) -> str:
     return grouped(value, currency)
+
+
+#: The terms of the row equation, in the order they are printed, with their labels.
+TERMS = (
+    ("accepted", "accepted"),
+    ("rejected", "rejected"),
+    ("duplicates_dropped", "exact repeats dropped"),
+    ("superseded", "superseded"),
+    ("cancels", "cancel messages"),
+    ("resent", "resent"),
+    ("skipped", "skipped"),
+)
+
+
+def _has_more_than_accepted(read: Mapping[str, Any]) -> bool:
+    return "rejected" in read or "skipped" in read
+
+
+def equation(read: Mapping[str, Any]) -> str:
+    """``10 rows read = 8 accepted + 2 rejected``: every row read lands in one term."""
+    always = {"accepted", "rejected"}
+    terms = [
+        f"{int(read[key]):,} {label}"
+        for key, label in TERMS
+        if key in read and (key in always or read[key])
+    ]
+    return f"{int(read['rows_read']):,} rows read = " + " + ".join(terms)
+
+
+def warnings(err: Console, lines: Sequence[str]) -> None:
+    for line in lines:
+        err.print(f"warning: {line}", markup=False)
+
+
+def check_summary(
+    out: Console,
+    read: Mapping[str, Any],
+    problems: Sequence[Any],
+    rejects: Path | None,
+    listed: int = 20,
+) -> None:
+    """What ``check`` shows: the row equation, rejections by reason, the first problems."""
+    out.print(f"Checked {read['source']}", markup=False, soft_wrap=True)
+    out.print(f"  {equation(read)}", markup=False, soft_wrap=True)
+    if read.get("skipped_by_kind"):
+        skipped = ", ".join(f"{k} {v:,}" for k, v in read["skipped_by_kind"].items())
+        out.print(f"  skipped: {skipped}", markup=False)
+    if read.get("rejected_by_reason"):
+        table = Table(
+            title="Rejected by reason",
+            title_justify="left",
+            box=box.SIMPLE_HEAD,
+            show_edge=False,
+            pad_edge=False,
+        )
+        table.add_column("reason")
+        table.add_column("rows", justify="right")
+        for reason, count in read["rejected_by_reason"].items():
+            table.add_row(reason, f"{count:,}")
+        out.print(table)
+    if problems:
+        shown = min(listed, len(problems))
+        out.print(
+            f"First {shown} of {len(problems):,} problems:"
+            if shown < len(problems)
+            else "Problems:"
+        )
+        for problem in problems[:listed]:
+            out.print(f"  {problem}", markup=False, soft_wrap=True)
+    if rejects is not None:
+        out.print(f"Rejected rows in {rejects}", markup=False)
+    out.print(CAUTION, style="dim")
