@@ -21,6 +21,7 @@ if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
     from reconcile.core.matching import match
+    from reconcile.core.stats import Stats, stats
     from reconcile.core.summary import currency_totals
     from reconcile.io.readers import read_fills, read_financing, read_opening
     from reconcile.io.writers.tables import write_tables
@@ -28,6 +29,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "Book",
+    "Stats",
     "allocate",
     "currency_totals",
     "errors",
@@ -37,6 +39,7 @@ __all__ = [
     "read_financing",
     "read_opening",
     "round_money",
+    "stats",
     "write_tables",
 ]
 
@@ -52,6 +55,8 @@ _HOMES = {
     "read_opening": "reconcile.io.readers",
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
+    "Stats": "reconcile.core.stats",
+    "stats": "reconcile.core.stats",
 }
 
 

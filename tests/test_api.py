@@ -19,6 +19,8 @@ PUBLIC = [
     "read_opening",
     "round_money",
     "write_tables",
+    "Stats",
+    "stats",
 ]
 
 
