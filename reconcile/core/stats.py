@@ -165,7 +165,7 @@ def stats(
     ``zero_pnl`` says how a trade with zero net P&L counts: ``breakeven`` (its own class, the
     default), ``win`` or ``loss``.
     """
-    keys = _check_by(by)
+    keys = check_by(by)
     check_choice("over", over, OVER)
     check_choice("zero_pnl", zero_pnl, ZERO_PNL)
     local = zone(timezone)
@@ -183,7 +183,7 @@ def stats(
     columns = (*keys, "currency")
     return Stats(
         summary=build_frame(summary, (*columns, *schema.STATISTICS)),
-        extremes=build_frame(extremes, (*columns, *schema.EXTREMES)),
+        extremes=build_frame(extremes, (*columns, *(c for c in schema.EXTREMES if c not in keys))),
         cumulative=build_frame(cumulative, (*columns, *schema.CUMULATIVE_PNL)),
         by=keys,
         over=over,
@@ -231,7 +231,7 @@ def _with_recovery(
     return Drawdown(depth, level, start, trough, recovery)
 
 
-def _check_by(by: str | Sequence[str]) -> tuple[str, ...]:
+def check_by(by: str | Sequence[str]) -> tuple[str, ...]:
     keys = (by,) if isinstance(by, str) else tuple(by)
     for key in keys:
         check_choice("by", key, BY_KEYS)
@@ -487,7 +487,7 @@ class _Group:
         ):
             row[prefix] = self.money(found.depth)
             if prefix == "max_drawdown":
-                row["max_drawdown_peak"] = self.money(found.peak)
+                row["max_drawdown_peak"] = self.money(found.peak) if found.depth else None
             row[f"{prefix}_start"] = found.start
             row[f"{prefix}_trough"] = found.trough
             row[f"{prefix}_recovery"] = found.recovery
