@@ -10,7 +10,8 @@ import io
 import json
 import sys
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass, replace
+from importlib.metadata import version
 from pathlib import Path
 
 from rich.console import Console
@@ -18,13 +19,16 @@ from rich.console import Console
 from reconcile.core.book import Book
 from reconcile.core.matching import check_choice
 from reconcile.core.stats import OVER, ZERO_PNL, Stats, check_by, stats
-from reconcile.errors import OutputError
+from reconcile.errors import ConfigError, OutputError
 from reconcile.io.render import terminal
+from reconcile.io.render.report import Report, ReportPart, ReportStats, build_report
 from reconcile.io.render.stats_view import view
+from reconcile.io.session import Inputs, run_manifest
 from reconcile.io.writers.atomic import file_set
-from reconcile.io.writers.tables import csv_bytes, json_records
+from reconcile.io.writers.report import write_report
+from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, json_records
 from reconcile.notice import CAUTION
-from reconcile.timezones import zone
+from reconcile.timezones import tz_database_version, zone
 
 STATS_FORMATS = ("table", "csv", "json")
 #: Width of the statistics table when it is written to a file rather than a terminal.
@@ -117,3 +121,85 @@ def stats_text(result: Stats, fmt: str) -> str:
     console = Console(file=buffer, width=STATS_FILE_WIDTH, color_system=None, soft_wrap=False)
     terminal.stats_tables(console, stats_heading(result), view(result))
     return buffer.getvalue()
+
+
+REPORT_FORMATS = TABLE_FORMATS
+#: The breakdowns a report carries, each a ``by`` key of :func:`reconcile.stats`.
+REPORT_BREAKDOWNS = ("month", "instrument", "account", "side", "weekday")
+
+
+@dataclass(frozen=True)
+class ReportRequest:
+    """The options of ``reconcile report`` that shape the statistics and the folder."""
+
+    statistics: StatsRequest
+    title: str = "Trading report"
+    fmt: str = "csv"
+
+
+def report_request(
+    *,
+    over: str = "round-trips",
+    zero_pnl: str = "breakeven",
+    timezone: str | None = None,
+    title: str = "Trading report",
+    fmt: str = "csv",
+) -> ReportRequest:
+    check_choice("format", fmt, REPORT_FORMATS)
+    if not title.strip():
+        raise ConfigError("title: expected some text, found an empty title")
+    statistics = stats_request(over=over, zero_pnl=zero_pnl, timezone=timezone)
+    return ReportRequest(statistics, title.strip(), fmt)
+
+
+def report_statistics(book: Book, request: StatsRequest) -> ReportStats:
+    """The book's statistics overall and by each breakdown of the report."""
+    breakdowns = {
+        key: compute_stats(book, replace(request, by=(key,))) for key in REPORT_BREAKDOWNS
+    }
+    return ReportStats(compute_stats(book, request), breakdowns)
+
+
+def make_report(
+    book: Book, inputs: Inputs, request: ReportRequest, parts: Sequence[ReportPart] = ()
+) -> Report:
+    """Statistics, charts and the page for ``book``; ``parts`` are sections handed in by others."""
+    statistics = report_statistics(book, request.statistics)
+    return build_report(
+        book, statistics, parts=parts, title=request.title, provenance=_provenance(inputs)
+    )
+
+
+def write_report_folder(
+    report: Report, book: Book, inputs: Inputs, request: ReportRequest, out: Path
+) -> list[Path]:
+    manifest = run_manifest("report", book, inputs)
+    manifest["statistics"] = {
+        k: v for k, v in asdict(request.statistics).items() if k not in ("fmt", "by")
+    }
+    manifest["tables"] = {name: len(frame) for name, frame in report.tables.items()}
+    return write_report(report, out, request.fmt, manifest)
+
+
+def show_report(report: Report, inputs: Inputs, written: Sequence[Path]) -> None:
+    out = terminal.console()
+    trips = len(report.tables["round_trips"])
+    read = inputs.summaries()[0]
+    out.print(
+        f"Report of {trips:,} round trips from {read['accepted']:,} fills in {read['source']}"
+    )
+    page, workbook, *tables = written
+    out.print(f"Open {page}")
+    out.print(f"Workbook {workbook}; {len(tables) - 1} tables and run.json beside them")
+    out.print(CAUTION, style="dim")
+
+
+def _provenance(inputs: Inputs) -> list[str]:
+    read = ", ".join(
+        f"{summary['source']} ({summary['accepted']:,} {summary['kind']})"
+        for summary in inputs.summaries()
+    )
+    return [
+        f"Made by reconcile {version('reconcile')} from {read}; time-zone database "
+        f"{tz_database_version()}."
+    ]

@@ -33,11 +33,16 @@ class StatsView:
     rows: list[tuple[str, list[str]]]
 
     def frame(self, first: str = "statistic") -> pd.DataFrame:
-        """The view as a table of text, for a page."""
-        data = {first: [label for label, _ in self.rows]}
+        """The view as a table of text, for a page (an indented label keeps its indent)."""
+        data = {first: [_keep_indent(label) for label, _ in self.rows]}
         for n, header in enumerate(self.headers):
             data[header] = [values[n] for _, values in self.rows]
         return pd.DataFrame(data, dtype="str")
+
+
+def _keep_indent(label: str) -> str:
+    stripped = label.lstrip(" ")
+    return "\u2003" * ((len(label) - len(stripped)) // 2) + stripped
 
 
 def view(stats: Stats) -> StatsView:
