@@ -18,6 +18,9 @@ $(STAMP): pyproject.toml constraints.txt
 demo: $(STAMP)
 	$(BIN)/reconcile match sample_data/fills.csv --financing sample_data/financing.csv \
 		--out $(DEMO_OUT)/match
+	$(BIN)/reconcile report sample_data/fills.csv --financing sample_data/financing.csv \
+		--timezone America/New_York --title "Larkmoor Capital: October and November 2026" \
+		--out $(DEMO_OUT)/report
 	@echo "Demo results are in $(DEMO_OUT)/"
 
 test: lint typecheck unit

@@ -275,3 +275,6 @@ DURATION_COLUMNS: Final = frozenset({"holding_time", *STATISTICS_DURATIONS})
 INTEGER_COLUMNS: Final = frozenset(
     {"trip_id", "fills", "open_lots", SOURCE_ROW, *STATISTICS_COUNTS}
 )
+#: Decimal places of every ratio; they are always shown with all of them.
+RATIO_PLACES: Final = 4
+FIXED_PLACES: Final = dict.fromkeys(STATISTICS_RATIOS, RATIO_PLACES)

@@ -52,7 +52,7 @@ BY_KEYS = ("account", "instrument", "month", "side", "weekday")
 OVER = ("round-trips", "closed-lots")
 ZERO_PNL = ("breakeven", "win", "loss")
 #: Decimal places of every ratio (win rate, payoff, profit factor, fee drag).
-RATIO_PLACES = 4
+RATIO_PLACES = schema.RATIO_PLACES
 WEEKDAYS = ("Monday", "Tuesday", "Wednesday", "Thursday", "Friday", "Saturday", "Sunday")
 MEASURES = ("largest win", "largest loss", "longest holding", "shortest holding")
 NOT_RECOVERED = "not recovered"

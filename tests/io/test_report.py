@@ -183,3 +183,20 @@ def test_the_manifest_says_how_the_statistics_were_made(tmp_path: Path) -> None:
         "timezone": "Asia/Tokyo",
     }
     assert manifest["tables"]["round_trips"] == 3
+
+
+def test_workbook_statistics_are_numbers_with_their_places(tmp_path: Path) -> None:
+    write_report(_report(_book()), tmp_path, "csv")
+    sheet = openpyxl.load_workbook(tmp_path / "report.xlsx")["statistics"]
+    header = [c.value for c in sheet[1]]
+    rows = {sheet.cell(r, 1).value: r for r in range(2, sheet.max_row + 1)}
+
+    def cell(currency: str, column: str) -> tuple[object, str]:
+        found = sheet.cell(rows[currency], header.index(column) + 1)
+        return found.value, found.number_format
+
+    assert cell("USD", "net_pnl") == (1.0, "#,##0.00")
+    assert cell("JPY", "net_pnl") == (200, "#,##0")
+    assert cell("USD", "win_rate") == (0.5, "#,##0.0000")  # 1 win of 2, four places always
+    assert cell("USD", "largest_win_trades") == ("1", "General")
+    assert sheet.freeze_panes == "A2"
