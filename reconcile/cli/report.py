@@ -13,11 +13,10 @@ from reconcile.cli._app import (
     InputFile,
     Method,
     Rounding,
-    Timezone,
     app,
     reports_errors,
 )
-from reconcile.cli.stats import FinancingFile, OpeningFile, Over, ZeroPnl
+from reconcile.cli.stats import CalendarZone, FinancingFile, OpeningFile, Over, ZeroPnl
 
 
 @app.command("report")
@@ -29,7 +28,7 @@ def report_command(
     method: Method = "fifo",
     commission: Commission = "at-close",
     rounding: Rounding = "half-even",
-    timezone: Timezone = None,
+    timezone: CalendarZone = None,
     dedupe: Dedupe = False,
     over: Over = "round-trips",
     zero_pnl: ZeroPnl = "breakeven",

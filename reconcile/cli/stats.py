@@ -13,7 +13,6 @@ from reconcile.cli._app import (
     InputFile,
     Method,
     Rounding,
-    Timezone,
     app,
     reports_errors,
 )
@@ -27,6 +26,15 @@ FinancingFile = Annotated[
 OpeningFile = Annotated[
     Path | None,
     typer.Option("--opening", metavar="FILE", help="Open lots carried in from an earlier period."),
+]
+CalendarZone = Annotated[
+    str | None,
+    typer.Option(
+        "--timezone",
+        metavar="ZONE",
+        help="IANA zone of months and weekdays (default UTC) and of times written without a "
+        "UTC offset, e.g. America/New_York.",
+    ),
 ]
 Over = Annotated[
     str,
@@ -55,7 +63,7 @@ def stats_command(
     method: Method = "fifo",
     commission: Commission = "at-close",
     rounding: Rounding = "half-even",
-    timezone: Timezone = None,
+    timezone: CalendarZone = None,
     dedupe: Dedupe = False,
     by: Annotated[
         list[str] | None,

@@ -26,9 +26,10 @@ are in docs/statistics.md; in short:
 from __future__ import annotations
 
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from decimal import Decimal
 from fractions import Fraction
+from functools import cached_property
 from typing import Any, Generic, TypeVar
 
 import pandas as pd
@@ -79,10 +80,10 @@ class Trade:
     gross: Decimal
     commission: Decimal
     financing: Decimal
+    holding: pd.Timedelta = field(init=False)
 
-    @property
-    def holding(self) -> pd.Timedelta:
-        return self.close_time - self.open_time
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "holding", self.close_time - self.open_time)
 
 
 @dataclass(frozen=True)
@@ -422,12 +423,13 @@ class _Group:
 
     def _extreme_columns(self) -> dict[str, Any]:
         row: dict[str, Any] = {}
-        for measure, (value, tied) in self._extremes().items():
+        for measure, (value, tied) in self._extremes.items():
             name = measure.replace(" ", "_")
             row[name] = value
             row[f"{name}_trades"] = ", ".join(t.ref for t in tied) if tied else None
         return row
 
+    @cached_property
     def _extremes(self) -> dict[str, tuple[Any, list[Trade]]]:
         largest_win = max((t.reported_net for t in self.wins), default=None)
         largest_loss = min((t.reported_net for t in self.losses), default=None)
@@ -445,7 +447,7 @@ class _Group:
 
     def extremes(self) -> list[dict[str, Any]]:
         rows = []
-        for measure, (_value, tied) in self._extremes().items():
+        for measure, (_value, tied) in self._extremes.items():
             rows += [
                 {
                     "measure": measure,
@@ -462,6 +464,7 @@ class _Group:
             ]
         return rows
 
+    @cached_property
     def points(self) -> list[tuple[pd.Timestamp, Decimal, int, Decimal]]:
         """(close instant, cumulative exact net, trades closed then, net of the instant)."""
         points: list[tuple[pd.Timestamp, Decimal, int, Decimal]] = []
@@ -475,15 +478,16 @@ class _Group:
                 points.append((trade.close_time, running, 1, trade.net))
         return points
 
+    @cached_property
     def origin(self) -> pd.Timestamp:
         return min(t.open_time for t in self.trades)
 
     def _drawdowns(self) -> dict[str, Any]:
-        series = [(time, value) for time, value, _, _ in self.points()]
+        series = [(time, value) for time, value, _, _ in self.points]
         row: dict[str, Any] = {}
         for prefix, found in (
-            ("max_drawdown", peak_drawdown(series, self.origin())),
-            ("drawdown_from_zero", zero_drawdown(series, self.origin())),
+            ("max_drawdown", peak_drawdown(series, self.origin)),
+            ("drawdown_from_zero", zero_drawdown(series, self.origin)),
         ):
             row[prefix] = self.money(found.depth)
             if prefix == "max_drawdown":
@@ -495,9 +499,9 @@ class _Group:
         return row
 
     def cumulative(self) -> list[dict[str, Any]]:
-        rows = [_curve_row(self.origin(), 0, ZERO, ZERO, ZERO)]
+        rows = [_curve_row(self.origin, 0, ZERO, ZERO, ZERO)]
         peak = ZERO
-        for time, value, count, pnl in self.points():
+        for time, value, count, pnl in self.points:
             peak = max(peak, value)
             rows.append(_curve_row(time, count, pnl, value, peak))
         return [{**row, **{k: self.money(row[k]) for k in _CURVE_MONEY}} for row in rows]
