@@ -2,14 +2,18 @@
 
 from __future__ import annotations
 
+import random
 import re
 import xml.etree.ElementTree as ET
 from datetime import timedelta
+from decimal import Decimal
 
 import pandas as pd
+import pyarrow as pa
 import pytest
 
 import reconcile
+from reconcile.core.stats import peak_drawdown
 from reconcile.io.render import charts
 from tests.builders import concat, fills
 
@@ -104,3 +108,42 @@ def test_a_chart_of_one_trade_still_draws(empty: bool) -> None:
     holding = [] if empty else book.round_trips["holding_time"].tolist()
     svg = charts.holding_time(holding)
     ET.fromstring(svg)
+
+
+def test_a_long_curve_is_thinned_but_keeps_every_peak_and_trough() -> None:
+    # Derived: a seeded random walk of 5,000 closes; thinning to 50 bins keeps at most 200 points,
+    # the first and last, the overall high and low, and so the same largest fall.
+    rng = random.Random(11)
+    steps = [rng.randint(-50, 50) for _ in range(5_000)]
+    cumulative = [sum(steps[: n + 1]) for n in range(len(steps))]
+    start = pd.Timestamp("2026-10-01", tz="UTC")
+    curve = pd.DataFrame(
+        {
+            "time": [start + pd.Timedelta(minutes=7 * n) for n in range(len(steps))],
+            "cumulative_pnl": [Decimal(v) for v in cumulative],
+        }
+    )
+    thinned = charts.thin_curve(curve, bins=50)
+    assert len(thinned) <= 200
+    kept = thinned["cumulative_pnl"].tolist()
+    assert (kept[0], kept[-1]) == (cumulative[0], cumulative[-1])
+    assert (max(kept), min(kept)) == (max(cumulative), min(cumulative))
+    points = list(enumerate(kept))
+    every = [(n, Decimal(v)) for n, v in enumerate(cumulative)]
+    assert peak_drawdown(points, -1).depth == peak_drawdown(every, -1).depth
+    short = curve.head(100)
+    assert charts.thin_curve(short, bins=50) is short
+
+
+def test_many_instruments_show_the_best_and_worst_twelve() -> None:
+    summary = pd.DataFrame(
+        {
+            "instrument": [f"I{n:02d}" for n in range(40)],
+            "currency": ["USD"] * 40,
+            "net_pnl": pd.Series(
+                [Decimal(n - 20) for n in range(40)], dtype=pd.ArrowDtype(pa.decimal128(4, 0))
+            ),
+        }
+    )
+    labels = re.findall(r">(I\d\d)</text>", charts.pnl_by_instrument(summary))
+    assert labels == [f"I{n:02d}" for n in [*range(39, 27, -1), *range(11, -1, -1)]]

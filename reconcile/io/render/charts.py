@@ -17,7 +17,7 @@ from collections.abc import Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from decimal import Decimal
-from typing import Any
+from typing import Any, TypeVar
 
 import matplotlib
 import pandas as pd
@@ -26,6 +26,8 @@ from matplotlib.dates import AutoDateLocator, ConciseDateFormatter
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 from matplotlib.typing import RcKeyType
+
+T = TypeVar("T")
 
 INK = "#1f2933"
 MUTED = "#616e7c"
@@ -41,6 +43,10 @@ PANEL_HEIGHT = 2.1
 LEGEND_ROOM = 0.35  # inches above the panels for a legend
 #: Fewest category slots a bar panel spans, so two months do not make two slabs.
 MIN_SLOTS = 6
+#: Time bins of a cumulative panel: more points than this many bins cannot be told apart.
+CURVE_BINS = 150
+#: Instruments shown at each end (best and worst) when a currency has more than twice as many.
+INSTRUMENTS_EACH_END = 12
 
 STYLE: dict[RcKeyType, Any] = {
     "svg.hashsalt": "reconcile",
@@ -101,7 +107,7 @@ def cumulative_pnl(curve: pd.DataFrame, marks: Mapping[str, DrawdownMark] | None
     currencies = sorted(set(curve["currency"]))
     with _figure(len(currencies)) as (figure, panels):
         for axes, code in zip(panels, currencies, strict=True):
-            rows = curve[curve["currency"] == code]
+            rows = thin_curve(curve[curve["currency"] == code])
             times = _instants(rows["time"])
             value = _floats(rows["cumulative_pnl"])
             peak = _floats(rows["peak_pnl"])
@@ -116,6 +122,31 @@ def cumulative_pnl(curve: pd.DataFrame, marks: Mapping[str, DrawdownMark] | None
                 _mark(axes, rows, code, marks[code])
         _legend(figure, panels[0])
         return _svg(figure)
+
+
+def thin_curve(rows: pd.DataFrame, bins: int = CURVE_BINS) -> pd.DataFrame:
+    """At most four points per time bin: its first, last, lowest and highest cumulative value.
+
+    Every peak and trough stays (the drawdown marks sit on them) and the drawn envelope is the
+    same, but a long history no longer makes a chart of hundreds of kilobytes.
+    """
+    if len(rows) <= 4 * bins:
+        return rows
+    times = rows["time"].tolist()
+    values = rows["cumulative_pnl"].tolist()
+    start, span = times[0], (times[-1] - times[0]) or pd.Timedelta(1)
+    keep: set[int] = set()
+    members: dict[int, list[int]] = {}
+    for index, moment in enumerate(times):
+        members.setdefault(min(bins - 1, (moment - start) * bins // span), []).append(index)
+    for indices in members.values():
+        keep |= {
+            indices[0],
+            indices[-1],
+            min(indices, key=lambda i: values[i]),
+            max(indices, key=lambda i: values[i]),
+        }
+    return rows.iloc[sorted(keep)]
 
 
 def _mark(axes: Axes, rows: pd.DataFrame, currency: str, mark: DrawdownMark) -> None:
@@ -135,7 +166,10 @@ def pnl_by_month(summary: pd.DataFrame) -> str:
 def pnl_by_instrument(summary: pd.DataFrame) -> str:
     """Net P&L of each instrument, largest first, one panel per currency."""
     currencies = sorted(set(summary["currency"]))
-    counts = [int((summary["currency"] == code).sum()) for code in currencies]
+    counts = [
+        min(int((summary["currency"] == code).sum()), 2 * INSTRUMENTS_EACH_END)
+        for code in currencies
+    ]
     heights = [0.32 * max(n, 3) + 0.55 for n in counts]
     longest = max((len(str(name)) for name in summary["instrument"]), default=4)
     with _figure(len(currencies), heights=heights, sharex=False, labels=longest) as (
@@ -144,7 +178,9 @@ def pnl_by_instrument(summary: pd.DataFrame) -> str:
     ):
         for axes, code in zip(panels, currencies, strict=True):
             rows = summary[summary["currency"] == code]
-            order = sorted(zip(rows["net_pnl"], rows["instrument"], strict=True), reverse=True)
+            order = _ends(
+                sorted(zip(rows["net_pnl"], rows["instrument"], strict=True), reverse=True)
+            )
             names = [str(name) for _, name in order]
             values = [float(value) for value, _ in order]
             axes.barh(range(len(names)), values, color=[_tone(v) for v in values], height=0.6)
@@ -158,6 +194,13 @@ def pnl_by_instrument(summary: pd.DataFrame) -> str:
             axes.xaxis.set_major_locator(MaxNLocator(6))
             axes.set_title(code)
         return _svg(figure)
+
+
+def _ends(ranked: list[T]) -> list[T]:
+    """The best and the worst :data:`INSTRUMENTS_EACH_END` of a ranked list, if it is longer."""
+    if len(ranked) <= 2 * INSTRUMENTS_EACH_END:
+        return ranked
+    return ranked[:INSTRUMENTS_EACH_END] + ranked[-INSTRUMENTS_EACH_END:]
 
 
 def fees_by_month(summary: pd.DataFrame) -> str:

@@ -225,7 +225,9 @@ def _breakdowns(breakdowns: Mapping[str, Stats], book: Book) -> list[Section]:
         if key == "instrument":
             figures = [
                 Figure(
-                    "Net P&L by instrument, best first",
+                    f"Net P&L by instrument, best first (with more than "
+                    f"{2 * charts.INSTRUMENTS_EACH_END} in a currency, its best and worst "
+                    f"{charts.INSTRUMENTS_EACH_END}; every one is in the table)",
                     charts.pnl_by_instrument(stats.summary),
                     "pnl-by-instrument",
                 )
