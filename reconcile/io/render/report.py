@@ -132,7 +132,7 @@ def _subtitle(book: Book, overall: Stats) -> str:
 
 def _overview(book: Book, overall: Stats, parts: Sequence[ReportPart]) -> Section:
     summary = overall.summary
-    trips = int(summary["trades"].sum()) if len(summary) else 0
+    trips = len(book.round_trips)
     still_open = int((book.positions["quantity"] != 0).sum())
     facts = [
         Fact("Round trips", f"{trips:,}"),
@@ -146,7 +146,7 @@ def _overview(book: Book, overall: Stats, parts: Sequence[ReportPart]) -> Sectio
         "Every amount is in its own currency; amounts in different currencies are never added."
     ]
     tables = []
-    if trips:
+    if len(summary):
         tables.append(_compact(summary, ("currency",), "Per currency", note=OVERVIEW_NOTE))
     else:
         paragraphs.append("No round trip has closed yet: there is nothing to measure.")
