@@ -19,6 +19,9 @@ demo: $(STAMP)
 	$(BIN)/reconcile match sample_data/fills.csv --financing sample_data/financing.csv \
 		--out $(DEMO_OUT)/match
 	for s in brightwater:brightwater-fills.csv quayside:quayside-futures.xlsx kestrel:kestrel-dropcopy.fix; do $(BIN)/reconcile match sample_data/profiles/$${s#*:} --profile sample_data/profiles/$${s%%:*}.toml --rejects $(DEMO_OUT)/$${s%%:*}/rejects.csv --out $(DEMO_OUT)/$${s%%:*} || exit 1; done
+	$(BIN)/reconcile report sample_data/fills.csv --financing sample_data/financing.csv \
+		--timezone America/New_York --title "Larkmoor Capital: October and November 2026" \
+		--out $(DEMO_OUT)/report
 	@echo "Demo results are in $(DEMO_OUT)/"
 
 test: lint typecheck unit

@@ -21,6 +21,7 @@ if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
     from reconcile.core.matching import match
+    from reconcile.core.stats import Stats, stats
     from reconcile.core.summary import currency_totals
     from reconcile.io.readers import check, load_profile, read_fills, read_financing, read_opening
     from reconcile.io.writers.tables import write_tables
@@ -28,6 +29,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "Book",
+    "Stats",
     "allocate",
     "check",
     "currency_totals",
@@ -39,6 +41,7 @@ __all__ = [
     "read_financing",
     "read_opening",
     "round_money",
+    "stats",
     "write_tables",
 ]
 
@@ -56,6 +59,8 @@ _HOMES = {
     "write_tables": "reconcile.io.writers.tables",
     "check": "reconcile.io.readers",
     "load_profile": "reconcile.io.readers",
+    "Stats": "reconcile.core.stats",
+    "stats": "reconcile.core.stats",
 }
 
 

@@ -133,6 +133,104 @@ UNATTRIBUTED: Final = (
     "reason",
 )
 
+#: Statistics over round trips (or closed lots), one row per group and currency (core/stats.py).
+#: Group columns (the ``by`` keys, then ``currency``) come first.
+STATISTICS: Final = (
+    "trades",
+    "wins",
+    "losses",
+    "breakevens",
+    "net_pnl",
+    "gross_profit",
+    "gross_loss",
+    "first_trade",
+    "last_trade",
+    "largest_win",
+    "largest_win_trades",
+    "largest_loss",
+    "largest_loss_trades",
+    "longest_holding",
+    "longest_holding_trades",
+    "shortest_holding",
+    "shortest_holding_trades",
+    "average_win",
+    "average_loss",
+    "win_rate",
+    "payoff",
+    "profit_factor",
+    "expectancy",
+    "max_drawdown",
+    "max_drawdown_peak",
+    "max_drawdown_start",
+    "max_drawdown_trough",
+    "max_drawdown_recovery",
+    "max_drawdown_state",
+    "drawdown_from_zero",
+    "drawdown_from_zero_start",
+    "drawdown_from_zero_trough",
+    "drawdown_from_zero_recovery",
+    "drawdown_from_zero_state",
+    "longest_win_streak",
+    "longest_loss_streak",
+    "gross_pnl",
+    "commission",
+    "financing",
+    "commission_drag",
+    "financing_drag",
+    "fee_drag",
+)
+#: Every trade tied for an extreme: largest win or loss, longest or shortest holding.
+EXTREMES: Final = (
+    "measure",
+    "trade",
+    "account",
+    "instrument",
+    "side",
+    "open_time",
+    "close_time",
+    "net_pnl",
+    "holding_time",
+)
+#: Cumulative net P&L at each instant a trade closed; the first row is the start, at zero.
+CUMULATIVE_PNL: Final = ("time", "trades", "pnl", "cumulative_pnl", "peak_pnl", "drawdown")
+STATISTICS_MONEY: Final = frozenset(
+    {
+        "gross_profit",
+        "gross_loss",
+        "largest_win",
+        "largest_loss",
+        "average_win",
+        "average_loss",
+        "expectancy",
+        "max_drawdown",
+        "max_drawdown_peak",
+        "drawdown_from_zero",
+        "pnl",
+        "cumulative_pnl",
+        "peak_pnl",
+        "drawdown",
+    }
+)
+STATISTICS_RATIOS: Final = frozenset(
+    {"win_rate", "payoff", "profit_factor", "commission_drag", "financing_drag", "fee_drag"}
+)
+STATISTICS_TIMES: Final = frozenset(
+    {
+        "first_trade",
+        "last_trade",
+        "max_drawdown_start",
+        "max_drawdown_trough",
+        "max_drawdown_recovery",
+        "drawdown_from_zero_start",
+        "drawdown_from_zero_trough",
+        "drawdown_from_zero_recovery",
+    }
+)
+STATISTICS_DURATIONS: Final = frozenset({"longest_holding", "shortest_holding"})
+STATISTICS_COUNTS: Final = frozenset(
+    {"trades", "wins", "losses", "breakevens", "longest_win_streak", "longest_loss_streak"}
+)
+
 #: Money columns of each output table; writers show them in the row's currency's minor unit.
 MONEY_COLUMNS: Final = frozenset(
     {
@@ -143,6 +241,7 @@ MONEY_COLUMNS: Final = frozenset(
         "realized_gross",
         "realized_net",
         "amount",
+        *STATISTICS_MONEY,
     }
 )
 
@@ -167,8 +266,15 @@ DECIMAL_COLUMNS: Final = frozenset(
         "realized_net",
         "cost_basis",
         "amount",
+        *STATISTICS_MONEY,
+        *STATISTICS_RATIOS,
     }
 )
-TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time"})
-DURATION_COLUMNS: Final = frozenset({"holding_time"})
-INTEGER_COLUMNS: Final = frozenset({"trip_id", "fills", "open_lots", SOURCE_ROW})
+TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time", *STATISTICS_TIMES})
+DURATION_COLUMNS: Final = frozenset({"holding_time", *STATISTICS_DURATIONS})
+INTEGER_COLUMNS: Final = frozenset(
+    {"trip_id", "fills", "open_lots", SOURCE_ROW, *STATISTICS_COUNTS}
+)
+#: Decimal places of every ratio; they are always shown with all of them.
+RATIO_PLACES: Final = 4
+FIXED_PLACES: Final = dict.fromkeys(STATISTICS_RATIOS, RATIO_PLACES)

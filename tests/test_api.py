@@ -21,6 +21,8 @@ PUBLIC = [
     "write_tables",
     "check",
     "load_profile",
+    "Stats",
+    "stats",
 ]
 
 

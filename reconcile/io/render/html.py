@@ -26,10 +26,13 @@ DEFAULT_ROW_LIMIT = 200
 
 @dataclass(frozen=True)
 class Table:
+    """A table; ``numeric`` names the right-aligned columns of a table already shown as text."""
+
     caption: str
     frame: pd.DataFrame
     limit: int = DEFAULT_ROW_LIMIT
     note: str = ""
+    numeric: Sequence[str] | None = None
 
 
 @dataclass(frozen=True)
@@ -95,6 +98,8 @@ def _header(table: Table) -> list[str]:
 
 def _numeric(table: Table) -> list[bool]:
     frame = table.frame
+    if table.numeric is not None:
+        return [c in table.numeric for c in frame.columns]
     return [
         isinstance(frame[c].dtype, pd.ArrowDtype) or pd.api.types.is_numeric_dtype(frame[c])
         for c in frame.columns

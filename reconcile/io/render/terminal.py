@@ -17,6 +17,7 @@ from rich.table import Table
 from reconcile.core.book import Book
 from reconcile.core.summary import currency_totals
 from reconcile.io.render.numbers import grouped
+from reconcile.io.render.stats_view import StatsView
 from reconcile.notice import CAUTION
 
 
@@ -172,3 +173,35 @@ def check_summary(
     if rejects is not None:
         out.print(f"Rejected rows in {rejects}", markup=False)
     out.print(CAUTION, style="dim")
+
+
+def stats_tables(out: Console, heading: str, view: StatsView) -> None:
+    """The statistics as rows, the groups as columns: as many columns a table as fit the width."""
+    out.print(heading)
+    if not view.headers:
+        out.print("No round trips closed yet: nothing to describe.")
+    label_width = max(len(label) for label, _ in view.rows)
+    for chunk in _column_chunks(view, out.width - label_width - 1):
+        out.print()
+        table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False)
+        table.add_column("", no_wrap=True)
+        for n in chunk:
+            table.add_column(view.headers[n], justify="right", no_wrap=True)
+        for label, values in view.rows:
+            table.add_row(label, *(values[n] for n in chunk))
+        out.print(table)
+    out.print(CAUTION, style="dim")
+
+
+def _column_chunks(view: StatsView, room: int) -> list[list[int]]:
+    """Group columns into runs whose widths (plus padding) fit ``room`` characters."""
+    chunks: list[list[int]] = []
+    used = room
+    for n, header in enumerate(view.headers):
+        width = max([len(header)] + [len(values[n]) for _, values in view.rows]) + 3
+        if not chunks or used + width > room:
+            chunks.append([])
+            used = 0
+        chunks[-1].append(n)
+        used += width
+    return chunks

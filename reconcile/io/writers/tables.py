@@ -15,7 +15,7 @@ import pyarrow.parquet as pq
 
 from reconcile import schema
 from reconcile.errors import OutputError
-from reconcile.io.writers.atomic import file_set
+from reconcile.io.writers.atomic import FileSet, file_set
 from reconcile.money import minor_unit
 
 TABLE_FORMATS = ("csv", "parquet", "json")
@@ -30,12 +30,22 @@ def write_tables(
     """Write each table to ``directory/<name>.<fmt>``, and ``extra`` JSON documents, atomically."""
     if fmt not in TABLE_FORMATS:
         raise OutputError(f"format: expected one of {', '.join(TABLE_FORMATS)}, found {fmt!r}")
-    written = []
     with file_set(directory) as files:
-        for name, frame in tables.items():
-            written.append(files.add(f"{name}.{fmt}", _WRITERS[fmt](frame)))
-        for name, document in (extra or {}).items():
-            written.append(files.add(name, _json_document(document)))
+        return add_tables(files, tables, fmt, extra)
+
+
+def add_tables(
+    files: FileSet,
+    tables: Mapping[str, pd.DataFrame],
+    fmt: str = "csv",
+    extra: Mapping[str, Any] | None = None,
+) -> list[Path]:
+    """Stage each table as ``<name>.<fmt>`` (and ``extra`` JSON documents) in a file set."""
+    if fmt not in TABLE_FORMATS:
+        raise OutputError(f"format: expected one of {', '.join(TABLE_FORMATS)}, found {fmt!r}")
+    written = [files.add(f"{name}.{fmt}", _WRITERS[fmt](frame)) for name, frame in tables.items()]
+    for name, document in (extra or {}).items():
+        written.append(files.add(name, _json_document(document)))
     return written
 
 
@@ -109,10 +119,28 @@ def decimal_text(value: Decimal | None, currency: str | None = None) -> str | No
     return f"{whole}.{fraction}" if fraction else whole
 
 
+def csv_bytes(frame: pd.DataFrame) -> bytes:
+    """The table as spreadsheet-safe CSV, exactly as :func:`write_tables` writes it."""
+    table = pa.Table.from_pandas(text_table(frame, spreadsheet_safe=True), preserve_index=False)
+    sink = pa.BufferOutputStream()
+    pa_csv.write_csv(table, sink, pa_csv.WriteOptions(quoting_style="needed"))
+    data: bytes = sink.getvalue().to_pybytes()
+    return data
+
+
+def json_records(frame: pd.DataFrame) -> list[dict[str, Any]]:
+    """The table as JSON-ready records of exact text (amounts in minor units, ISO 8601 times).
+
+    A blank is ``null``: a missing text cell would otherwise come out as ``NaN``, which is not JSON.
+    """
+    text = text_table(frame).astype(object)
+    records = text.where(text.notna(), None).to_dict(orient="records")
+    return [{str(k): v for k, v in record.items()} for record in records]
+
+
 def _csv(frame: pd.DataFrame) -> Any:
     def write(path: Path) -> None:
-        table = pa.Table.from_pandas(text_table(frame, spreadsheet_safe=True), preserve_index=False)
-        pa_csv.write_csv(table, path, pa_csv.WriteOptions(quoting_style="needed"))
+        path.write_bytes(csv_bytes(frame))
 
     return write
 
@@ -126,8 +154,9 @@ def _parquet(frame: pd.DataFrame) -> Any:
 
 def _json(frame: pd.DataFrame) -> Any:
     def write(path: Path) -> None:
-        records = text_table(frame).to_dict(orient="records")
-        path.write_text(json.dumps(records, indent=1, default=str) + "\n", encoding="utf-8")
+        records = json_records(frame)
+        text = json.dumps(records, indent=1, default=str, allow_nan=False)
+        path.write_text(text + "\n", encoding="utf-8")
 
     return write
 

@@ -96,7 +96,8 @@ def _table_sheet(sheet: Worksheet, frame: pd.DataFrame, styles: _Styles) -> None
         width = len(str(name))
         for row, value in enumerate(values, start=1):
             currency = currencies[row - 1] if money and currencies is not None else None
-            width = max(width, _write_cell(sheet, row, col, value, currency, styles))
+            fixed = schema.FIXED_PLACES.get(str(name))
+            width = max(width, _write_cell(sheet, row, col, value, currency, styles, fixed))
         widths.append(min(width + 2, MAX_COLUMN_WIDTH))
     for col, width in enumerate(widths):
         sheet.set_column(col, col, width)
@@ -106,7 +107,13 @@ def _table_sheet(sheet: Worksheet, frame: pd.DataFrame, styles: _Styles) -> None
 
 
 def _write_cell(
-    sheet: Worksheet, row: int, col: int, value: Any, currency: str | None, styles: _Styles
+    sheet: Worksheet,
+    row: int,
+    col: int,
+    value: Any,
+    currency: str | None,
+    styles: _Styles,
+    fixed: int | None = None,
 ) -> int:
     """Write one cell; return the width of what a person sees."""
     shown = cell_text(value, currency)
@@ -114,7 +121,7 @@ def _write_cell(
         return 0
     if isinstance(value, Decimal):
         if len(value.as_tuple().digits) <= EXACT_DOUBLE_DIGITS:
-            places = _places(value, currency)
+            places = fixed if fixed is not None else _places(value, currency)
             sheet.write_number(row, col, float(value), styles.number(places))
         else:
             sheet.write_string(row, col, shown, styles.text)

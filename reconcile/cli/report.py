@@ -1,0 +1,56 @@
+"""``reconcile report``: fills in, one folder with the page, the workbook and the tables out."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from reconcile.cli._app import (
+    Commission,
+    Dedupe,
+    InputFile,
+    Method,
+    Rounding,
+    app,
+    reports_errors,
+)
+from reconcile.cli.stats import CalendarZone, FinancingFile, OpeningFile, Over, ZeroPnl
+
+
+@app.command("report")
+@reports_errors
+def report_command(
+    fills: InputFile,
+    financing: FinancingFile = None,
+    opening: OpeningFile = None,
+    method: Method = "fifo",
+    commission: Commission = "at-close",
+    rounding: Rounding = "half-even",
+    timezone: CalendarZone = None,
+    dedupe: Dedupe = False,
+    over: Over = "round-trips",
+    zero_pnl: ZeroPnl = "breakeven",
+    title: Annotated[
+        str, typer.Option("--title", metavar="TEXT", help="Heading of the page and workbook.")
+    ] = "Trading report",
+    out: Annotated[
+        Path, typer.Option("--out", metavar="DIR", help="Folder for the report.")
+    ] = Path("reconcile-report"),
+    fmt: Annotated[
+        str,
+        typer.Option("--format", metavar="csv|parquet|json", help="Format of the tables written."),
+    ] = "csv",
+) -> None:
+    """One folder to open and send: report.html with charts, report.xlsx and every table."""
+    from reconcile.io import reporting, session
+
+    request = reporting.report_request(
+        over=over, zero_pnl=zero_pnl, timezone=timezone, title=title, fmt=fmt
+    )
+    inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
+    report = reporting.make_report(book, inputs, request)
+    written = reporting.write_report_folder(report, book, inputs, request, out)
+    reporting.show_report(report, inputs, written)

@@ -1,0 +1,205 @@
+"""The steps of ``reconcile stats`` and ``reconcile report`` between options and output.
+
+Reading and matching are the shared steps of :mod:`reconcile.io.session`; what follows them
+(statistics, their formats, the report folder) lives here, for the CLI and for scripts.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import sys
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass, replace
+from importlib.metadata import version
+from pathlib import Path
+
+from rich.console import Console
+
+from reconcile.core.book import Book
+from reconcile.core.matching import check_choice
+from reconcile.core.stats import OVER, ZERO_PNL, Stats, check_by, stats
+from reconcile.errors import ConfigError, OutputError
+from reconcile.io.render import terminal
+from reconcile.io.render.report import Report, ReportPart, ReportStats, build_report
+from reconcile.io.render.stats_view import view
+from reconcile.io.session import Inputs, run_manifest
+from reconcile.io.writers.atomic import file_set
+from reconcile.io.writers.report import write_report
+from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, json_records
+from reconcile.notice import CAUTION
+from reconcile.timezones import tz_database_version, zone
+
+STATS_FORMATS = ("table", "csv", "json")
+#: Width of the statistics table when it is written to a file rather than a terminal.
+STATS_FILE_WIDTH = 120
+
+
+@dataclass(frozen=True)
+class StatsRequest:
+    """The options of ``reconcile stats``, checked before any input is read."""
+
+    by: tuple[str, ...] = ()
+    over: str = "round-trips"
+    zero_pnl: str = "breakeven"
+    timezone: str = "UTC"
+    fmt: str = "table"
+
+
+def stats_request(
+    by: Sequence[str] = (),
+    *,
+    over: str = "round-trips",
+    zero_pnl: str = "breakeven",
+    timezone: str | None = None,
+    fmt: str = "table",
+) -> StatsRequest:
+    """Check the options (``by`` may also be comma-separated) so a bad one stops the run early."""
+    keys = tuple(key.strip() for item in by for key in item.split(",") if key.strip())
+    check_choice("format", fmt, STATS_FORMATS)
+    check_choice("over", over, OVER)
+    check_choice("zero-pnl", zero_pnl, ZERO_PNL)
+    check_by(keys)
+    zone(timezone or "UTC")
+    return StatsRequest(keys, over, zero_pnl, timezone or "UTC", fmt)
+
+
+def compute_stats(book: Book, request: StatsRequest) -> Stats:
+    return stats(
+        book,
+        request.by,
+        over=request.over,
+        zero_pnl=request.zero_pnl,
+        timezone=request.timezone,
+    )
+
+
+def show_stats(result: Stats, request: StatsRequest, out: Path | None) -> Path | None:
+    """Print the statistics in the requested format, or write them to ``out`` (atomically)."""
+    if out is None:
+        if request.fmt == "table":
+            terminal.stats_tables(terminal.console(), stats_heading(result), view(result))
+        else:
+            sys.stdout.write(stats_text(result, request.fmt))
+        return None
+    if out.is_dir():
+        raise OutputError(f"--out {out}: expected a file name, found a directory")
+    text = stats_text(result, request.fmt)
+    with file_set(out.parent) as files:
+        files.add(out.name, lambda path: _write_text(path, text))
+    return out
+
+
+def _write_text(path: Path, text: str) -> None:
+    path.write_text(text, encoding="utf-8")
+
+
+def stats_heading(result: Stats) -> str:
+    count = int(result.summary["trades"].sum()) if len(result.summary) else 0
+    unit = "closed lots" if result.over == "closed-lots" else "round trips"
+    groups = ", ".join(result.by) + " and currency" if result.by else "currency"
+    return (
+        f"Statistics of {count:,} {unit} by {groups}\n"
+        f"Times in UTC; months and weekdays in {result.timezone}; a zero-P&L trade counts as "
+        f"{'a breakeven' if result.zero_pnl == 'breakeven' else 'a ' + result.zero_pnl}."
+    )
+
+
+def stats_text(result: Stats, fmt: str) -> str:
+    """The statistics as a table (plain text), CSV or a JSON document."""
+    if fmt == "csv":
+        return csv_bytes(result.summary).decode("utf-8")
+    if fmt == "json":
+        document = {
+            "settings": result.settings(),
+            "statistics": json_records(result.summary),
+            "extremes": json_records(result.extremes),
+            "caution": CAUTION,
+        }
+        return json.dumps(document, indent=1, default=str, allow_nan=False) + "\n"
+    buffer = io.StringIO()
+    console = Console(file=buffer, width=STATS_FILE_WIDTH, color_system=None, soft_wrap=False)
+    terminal.stats_tables(console, stats_heading(result), view(result))
+    return buffer.getvalue()
+
+
+REPORT_FORMATS = TABLE_FORMATS
+#: The breakdowns a report carries, each a ``by`` key of :func:`reconcile.stats`.
+REPORT_BREAKDOWNS = ("month", "instrument", "account", "side", "weekday")
+
+
+@dataclass(frozen=True)
+class ReportRequest:
+    """The options of ``reconcile report`` that shape the statistics and the folder."""
+
+    statistics: StatsRequest
+    title: str = "Trading report"
+    fmt: str = "csv"
+
+
+def report_request(
+    *,
+    over: str = "round-trips",
+    zero_pnl: str = "breakeven",
+    timezone: str | None = None,
+    title: str = "Trading report",
+    fmt: str = "csv",
+) -> ReportRequest:
+    check_choice("format", fmt, REPORT_FORMATS)
+    if not title.strip():
+        raise ConfigError("title: expected some text, found an empty title")
+    statistics = stats_request(over=over, zero_pnl=zero_pnl, timezone=timezone)
+    return ReportRequest(statistics, title.strip(), fmt)
+
+
+def report_statistics(book: Book, request: StatsRequest) -> ReportStats:
+    """The book's statistics overall and by each breakdown of the report."""
+    breakdowns = {
+        key: compute_stats(book, replace(request, by=(key,))) for key in REPORT_BREAKDOWNS
+    }
+    return ReportStats(compute_stats(book, request), breakdowns)
+
+
+def make_report(
+    book: Book, inputs: Inputs, request: ReportRequest, parts: Sequence[ReportPart] = ()
+) -> Report:
+    """Statistics, charts and the page for ``book``; ``parts`` are sections handed in by others."""
+    statistics = report_statistics(book, request.statistics)
+    return build_report(
+        book, statistics, parts=parts, title=request.title, provenance=_provenance(inputs)
+    )
+
+
+def write_report_folder(
+    report: Report, book: Book, inputs: Inputs, request: ReportRequest, out: Path
+) -> list[Path]:
+    manifest = run_manifest("report", book, inputs)
+    manifest["statistics"] = {
+        k: v for k, v in asdict(request.statistics).items() if k not in ("fmt", "by")
+    }
+    manifest["tables"] = {name: len(frame) for name, frame in report.tables.items()}
+    return write_report(report, out, request.fmt, manifest)
+
+
+def show_report(report: Report, inputs: Inputs, written: Sequence[Path]) -> None:
+    out = terminal.console()
+    trips = len(report.tables["round_trips"])
+    read = inputs.summaries()[0]
+    out.print(
+        f"Report of {trips:,} round trips from {read['accepted']:,} fills in {read['source']}"
+    )
+    page, workbook, *tables = written
+    out.print(f"Open {page}")
+    out.print(f"Workbook {workbook}; {len(tables) - 1} tables and run.json beside them")
+    out.print(CAUTION, style="dim")
+
+
+def _provenance(inputs: Inputs) -> list[str]:
+    read = ", ".join(
+        f"{summary['source']} ({summary['accepted']:,} {summary['kind']})"
+        for summary in inputs.summaries()
+    )
+    return [
+        f"Made by reconcile {version('reconcile')} from {read}; time-zone database "
+        f"{tz_database_version()}."
+    ]
