@@ -110,3 +110,12 @@ def test_csv_text_that_a_spreadsheet_would_run_is_inert_and_reads_back(tmp_path:
     assert '"\'-2"' in text
     carried = reconcile.read_opening(tmp_path / "open_lots.csv")
     assert sorted(carried["instrument"]) == sorted(names)
+
+
+def test_written_files_get_the_usual_permissions(tmp_path: Path) -> None:
+    import os
+
+    write_tables({"t": pd.DataFrame({"a": ["1"]})}, tmp_path, "csv")
+    umask = os.umask(0)
+    os.umask(umask)
+    assert (tmp_path / "t.csv").stat().st_mode & 0o777 == 0o666 & ~umask

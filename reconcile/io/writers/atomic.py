@@ -18,6 +18,16 @@ from reconcile.errors import OutputError
 Writer = Callable[[Path], None]
 
 
+def _umask() -> int:
+    current = os.umask(0)
+    os.umask(current)
+    return current
+
+
+#: The mode an ordinary ``open(path, "w")`` would give a new file.
+_CREATE_MODE = 0o666 & ~_umask()
+
+
 class FileSet:
     """Collects writers for several files, then publishes them together."""
 
@@ -32,6 +42,7 @@ class FileSet:
         )
         os.close(handle)
         staged = Path(temporary)
+        staged.chmod(_CREATE_MODE)  # mkstemp makes files owner-only; results are ordinary files
         self._staged.append((staged, target))
         write(staged)
         return target
