@@ -20,22 +20,28 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
+    from reconcile.core.fees.audit import FeeAudit, audit_fees
     from reconcile.core.matching import match
     from reconcile.core.summary import currency_totals
-    from reconcile.io.readers import read_fills, read_financing, read_opening
+    from reconcile.io.readers import read_fills, read_financing, read_marks, read_opening
+    from reconcile.io.readers.schedule import read_schedule
     from reconcile.io.writers.tables import write_tables
     from reconcile.money import allocate, minor_unit, round_money
 
 __all__ = [
     "Book",
+    "FeeAudit",
     "allocate",
+    "audit_fees",
     "currency_totals",
     "errors",
     "match",
     "minor_unit",
     "read_fills",
     "read_financing",
+    "read_marks",
     "read_opening",
+    "read_schedule",
     "round_money",
     "write_tables",
 ]
@@ -52,6 +58,10 @@ _HOMES = {
     "read_opening": "reconcile.io.readers",
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
+    "FeeAudit": "reconcile.core.fees.audit",
+    "audit_fees": "reconcile.core.fees.audit",
+    "read_marks": "reconcile.io.readers",
+    "read_schedule": "reconcile.io.readers.schedule",
 }
 
 

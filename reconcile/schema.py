@@ -143,6 +143,21 @@ MONEY_COLUMNS: Final = frozenset(
         "realized_gross",
         "realized_net",
         "amount",
+        "expected",
+        "charged",
+        "difference",
+        "overcharge",
+        "undercharge",
+        "notional",
+        "commission_overcharge",
+        "commission_undercharge",
+        "financing_overcharge",
+        "financing_undercharge",
+        "leakage",
+        "gross_realized",
+        "financing_cost",
+        "commission_expected",
+        "financing_expected",
     }
 )
 
@@ -167,8 +182,158 @@ DECIMAL_COLUMNS: Final = frozenset(
         "realized_net",
         "cost_basis",
         "amount",
+        "expected",
+        "charged",
+        "difference",
+        "overcharge",
+        "undercharge",
+        "notional",
+        "commission_overcharge",
+        "commission_undercharge",
+        "financing_overcharge",
+        "financing_undercharge",
+        "leakage",
+        "gross_realized",
+        "financing_cost",
+        "commission_expected",
+        "financing_expected",
+        "tier_volume",
+        "position",
+        "annual_rate",
+        "swap_points",
+        "fee_drag_pct",
+        "fee_drag_expected_pct",
     }
 )
-TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time"})
+TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time", "cutoff"})
 DURATION_COLUMNS: Final = frozenset({"holding_time"})
-INTEGER_COLUMNS: Final = frozenset({"trip_id", "fills", "open_lots", SOURCE_ROW})
+INTEGER_COLUMNS: Final = frozenset(
+    {"trip_id", "fills", "open_lots", SOURCE_ROW, "nights", "events", "findings", "rank"}
+)
+
+# The fee audit (reconcile fees): inputs beside the fills, and the tables it writes.
+
+MARKS_REQUIRED: Final = ("time", "instrument", "price")
+MARKS_DEFAULTS: Final = {"account": ""}
+MARKS_COLUMNS: Final = (*MARKS_REQUIRED, *MARKS_DEFAULTS)
+
+COMMISSION_FILLS: Final = (
+    "fill_id",
+    "order_id",
+    "account",
+    "instrument",
+    "venue",
+    "side",
+    "time",
+    "quantity",
+    "price",
+    "multiplier",
+    "notional",
+    "currency",
+    "rule",
+    "charged_per",
+    "tier",
+    "expected",
+    "charged",
+    "difference",
+    "status",
+)
+COMMISSION_ORDERS: Final = (
+    "account",
+    "order_id",
+    "first_fill_id",
+    "instrument",
+    "venue",
+    "currency",
+    "rule",
+    "charged_per",
+    "month",
+    "time",
+    "fills",
+    "quantity",
+    "notional",
+    "tier",
+    "tier_volume",
+    "expected",
+    "charged",
+    "difference",
+    "overcharge",
+    "undercharge",
+    "status",
+    "cause",
+)
+FINANCING_DAYS: Final = (
+    "account",
+    "instrument",
+    "currency",
+    "rule",
+    "date",
+    "weekday",
+    "cutoff",
+    "position",
+    "price",
+    "price_source",
+    "notional",
+    "annual_rate",
+    "swap_points",
+    "nights",
+    "expected",
+    "charged",
+    "difference",
+    "overcharge",
+    "undercharge",
+    "status",
+    "cause",
+    "events",
+    "event_ids",
+)
+FEE_UNMATCHED: Final = (
+    "source",
+    "id",
+    "account",
+    "instrument",
+    "venue",
+    "time",
+    "currency",
+    "amount",
+    "reason",
+)
+FINDINGS: Final = (
+    "charge",
+    "account",
+    "instrument",
+    "venue",
+    "currency",
+    "month",
+    "reference",
+    "time",
+    "rule",
+    "expected",
+    "charged",
+    "overcharge",
+    "undercharge",
+    "cause",
+)
+TOP_OFFENDERS: Final = ("rank", *FINDINGS)
+LEAKAGE_TOTALS: Final = (
+    "dimension",
+    "value",
+    "currency",
+    "commission_overcharge",
+    "commission_undercharge",
+    "financing_overcharge",
+    "financing_undercharge",
+    "leakage",
+    "findings",
+)
+FEE_DRAG: Final = (
+    "account",
+    "currency",
+    "gross_realized",
+    "commission",
+    "financing_cost",
+    "fee_drag_pct",
+    "commission_expected",
+    "financing_expected",
+    "fee_drag_expected_pct",
+)

@@ -19,6 +19,10 @@ PUBLIC = [
     "read_opening",
     "round_money",
     "write_tables",
+    "FeeAudit",
+    "audit_fees",
+    "read_marks",
+    "read_schedule",
 ]
 
 

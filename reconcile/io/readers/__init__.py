@@ -6,10 +6,15 @@ from pathlib import Path
 
 import pandas as pd
 
-from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
+from reconcile.core.canon import (
+    canonical_fills,
+    canonical_financing,
+    canonical_marks,
+    canonical_opening,
+)
 from reconcile.io.readers.tabular import read_table
 
-__all__ = ["read_fills", "read_financing", "read_opening", "read_table"]
+__all__ = ["read_fills", "read_financing", "read_marks", "read_opening", "read_table"]
 
 
 def read_fills(
@@ -42,3 +47,11 @@ def read_opening(
     """Read open lots carried in from an earlier period (the ``open_lots`` table of ``match``)."""
     raw = read_table(path, input_format)
     return canonical_opening(raw, source=str(path), timezone=timezone)
+
+
+def read_marks(
+    path: Path | str, *, timezone: str | None = None, input_format: str | None = None
+) -> pd.DataFrame:
+    """Read marks (time, instrument, price, optional account) that price positions for financing."""
+    raw = read_table(path, input_format)
+    return canonical_marks(raw, source=str(path), timezone=timezone)

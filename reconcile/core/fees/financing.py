@@ -1,0 +1,404 @@
+"""Expected overnight financing of every position and day, against what was booked.
+
+Positions come from the fills: the open quantity at a day's cut-off is the signed sum of the fills
+before that instant, which is the engine's position (a fill at the cut-off itself counts from the
+next day, as the engine applies financing before a fill at the same instant). Notional needs a
+price: the latest mark at or before the cut-off (one for the account, else one for every
+account), or else the price of the last fill at or before it.
+
+A booked event belongs to the financing day of the latest cut-off at or before its time, under
+the first rule that covers its account, instrument and kind.
+"""
+
+from __future__ import annotations
+
+import bisect
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
+from datetime import date, datetime, timedelta
+from decimal import Decimal
+from fractions import Fraction
+from typing import Any
+
+import pandas as pd
+
+from reconcile.core.fees.daycount import WEEKDAYS, nights_charged, year_fraction
+from reconcile.core.fees.facts import FillFacts
+from reconcile.core.fees.findings import (
+    OVERCHARGE,
+    UNDERCHARGE,
+    UNEXPLAINED,
+    Finding,
+    classify,
+    over_and_under,
+)
+from reconcile.core.fees.period import Period
+from reconcile.core.fees.rules import FinancingRule, Schedule
+from reconcile.errors import Problem, ScheduleError
+from reconcile.money import ZERO, Rounding, currency_places, round_fraction
+from reconcile.timezones import zone
+
+Row = dict[str, Any]
+Key = tuple[str, str]
+ONE_DAY = timedelta(days=1)
+
+
+@dataclass
+class _Book:
+    """One account and instrument: its fills in time order, running positions and marks."""
+
+    currency: str
+    multiplier: Decimal = Decimal(1)
+    times: list[int] = field(default_factory=list)
+    positions: list[Decimal] = field(default_factory=list)
+    prices: list[Decimal] = field(default_factory=list)
+    marks: list[tuple[list[int], list[Decimal]]] = field(default_factory=list)
+
+    def position(self, cutoff: int) -> Decimal:
+        count = bisect.bisect_left(self.times, cutoff)
+        return self.positions[count - 1] if count else ZERO
+
+    def price(self, cutoff: int) -> tuple[Decimal | None, str]:
+        for times, prices in self.marks:
+            index = bisect.bisect_right(times, cutoff) - 1
+            if index >= 0:
+                return prices[index], "mark"
+        index = bisect.bisect_right(self.times, cutoff) - 1
+        return (self.prices[index], "last fill") if index >= 0 else (None, "")
+
+
+@dataclass(frozen=True)
+class _Event:
+    event_id: str
+    account: str
+    instrument: str
+    time: pd.Timestamp
+    amount: Decimal
+    currency: str
+    kind: str
+
+
+@dataclass
+class FinancingAudit:
+    days: list[Row]
+    findings: list[Finding]
+    unmatched: list[Row]
+
+
+def audit_financing(
+    facts: list[FillFacts],
+    financing: pd.DataFrame,
+    marks: pd.DataFrame | None,
+    schedule: Schedule,
+    period: Period | None,
+    tolerance: Decimal,
+) -> FinancingAudit:
+    """Every (position, rule, day) the schedule finances or an event was booked for, in period."""
+    books = _books(facts, marks)
+    events = _events(financing)
+    for event in events:
+        books.setdefault((event.account, event.instrument), _Book(event.currency))
+    audit = FinancingAudit([], [], [])
+    booked = _bucket_events(events, books, schedule, period, audit.unmatched)
+    days = _days(facts, booked, schedule, period)
+    missing: dict[str, Problem] = {}
+    for key in sorted(books):
+        candidates = _candidates(key, books[key], schedule.financing)
+        for day in days:
+            claimed: set[str] = set()
+            for rule in candidates:
+                if not rule.selector.valid_on(day):
+                    continue
+                kinds = [kind for kind in rule.kinds if kind not in claimed]
+                claimed.update(kinds)
+                charged = [e for kind in kinds for e in booked.pop((key, kind, day), [])]
+                if not kinds:
+                    continue
+                try:
+                    priced = _price_day(key, books[key], rule, day, charged, schedule.rounding)
+                except LookupError:
+                    missing.setdefault(rule.name, _missing_fixing(schedule, rule, day))
+                    continue
+                if priced is not None:
+                    _settle(priced, tolerance, audit)
+    if missing:
+        raise ScheduleError(schedule.source, list(missing.values()))
+    for (_key, kind, day), left in sorted(booked.items(), key=lambda item: str(item[0])):
+        for event in left:
+            reason = f"no financing rule valid on {day.isoformat()} covers kind {kind}"
+            audit.unmatched.append(_unmatched_row(event, reason))
+    return audit
+
+
+def _books(facts: list[FillFacts], marks: pd.DataFrame | None) -> dict[Key, _Book]:
+    books: dict[Key, _Book] = {}
+    for fill in sorted(facts, key=lambda f: (f.time, f.index)):
+        book = books.setdefault((fill.account, fill.instrument), _Book(fill.currency))
+        book.multiplier = fill.multiplier
+        running = book.positions[-1] if book.positions else ZERO
+        book.times.append(fill.time.value)
+        book.positions.append(running + fill.signed_quantity)
+        book.prices.append(fill.price)
+    if marks is not None and len(marks):
+        _attach_marks(books, marks)
+    return books
+
+
+def _attach_marks(books: dict[Key, _Book], marks: pd.DataFrame) -> None:
+    ordered = marks.sort_values("time", kind="stable")
+    series: dict[Key, tuple[list[int], list[Decimal]]] = {}
+    for account, instrument, time, price in zip(
+        ordered["account"].tolist(),
+        ordered["instrument"].tolist(),
+        ordered["time"].tolist(),
+        ordered["price"].tolist(),
+        strict=True,
+    ):
+        times, prices = series.setdefault((account, instrument), ([], []))
+        times.append(time.value)
+        prices.append(price)
+    for (account, instrument), book in books.items():
+        book.marks = [series[k] for k in ((account, instrument), ("", instrument)) if k in series]
+
+
+def _events(financing: pd.DataFrame) -> list[_Event]:
+    columns = ["event_id", "account", "instrument", "time", "amount", "currency", "kind"]
+    values = [financing[c].tolist() for c in columns]
+    return [_Event(*row) for row in zip(*values, strict=True)]
+
+
+def _candidates(key: Key, book: _Book, rules: Sequence[FinancingRule]) -> list[FinancingRule]:
+    return [rule for rule in rules if rule.selector.covers(key[0], key[1], book.currency)]
+
+
+def _bucket_events(
+    events: list[_Event],
+    books: dict[Key, _Book],
+    schedule: Schedule,
+    period: Period | None,
+    unmatched: list[Row],
+) -> dict[tuple[Key, str, date], list[_Event]]:
+    booked: dict[tuple[Key, str, date], list[_Event]] = {}
+    for event in sorted(events, key=lambda e: e.time):
+        key = (event.account, event.instrument)
+        rule = next(
+            (r for r in _candidates(key, books[key], schedule.financing) if event.kind in r.kinds),
+            None,
+        )
+        if rule is None:
+            reason = f"no financing rule covers kind {event.kind} for this account and instrument"
+            if period is None or _local_day(event.time, schedule.timezone) in period:
+                unmatched.append(_unmatched_row(event, reason))
+            continue
+        day = financing_day(event.time, rule)
+        if period is None or day in period:
+            booked.setdefault((key, event.kind, day), []).append(event)
+    return booked
+
+
+def financing_day(time: pd.Timestamp, rule: FinancingRule) -> date:
+    """The day whose cut-off is the latest at or before ``time``."""
+    local = time.tz_convert(zone(rule.cutoff_timezone))
+    day: date = local.date()
+    return day if local.time() >= rule.cutoff else day - ONE_DAY
+
+
+def cutoff_instant(day: date, rule: FinancingRule) -> pd.Timestamp:
+    local = datetime.combine(day, rule.cutoff, tzinfo=zone(rule.cutoff_timezone))
+    return pd.Timestamp(local).tz_convert("UTC")
+
+
+def _local_day(time: pd.Timestamp, timezone: str) -> date:
+    day: date = time.tz_convert(zone(timezone)).date()
+    return day
+
+
+def _days(
+    facts: list[FillFacts],
+    booked: dict[tuple[Key, str, date], list[_Event]],
+    schedule: Schedule,
+    period: Period | None,
+) -> list[date]:
+    """Every calendar day of the period, or from the first to the last day the inputs touch."""
+    if period is not None:
+        start, end = period.start, period.end
+    else:
+        touched = [fill.day for fill in facts] + [day for (_, _, day) in booked]
+        if not touched:
+            return []
+        start, end = min(touched), max(touched)
+    return [start + ONE_DAY * n for n in range((end - start).days + 1)]
+
+
+@dataclass(frozen=True)
+class _Priced:
+    """A financing day's row, with what is needed to name the cause of a finding."""
+
+    row: Row
+    rule: FinancingRule
+    per_night: Fraction
+    rounding: Rounding
+
+
+def _price_day(
+    key: Key,
+    book: _Book,
+    rule: FinancingRule,
+    day: date,
+    charged: list[_Event],
+    rounding: Rounding,
+) -> _Priced | None:
+    """The day's expected and booked amounts; None when neither is there."""
+    cutoff = cutoff_instant(day, rule)
+    position = book.position(cutoff.value)
+    nights = nights_charged(day, rule.triple_weekday, rule.holidays)
+    terms = _Terms(rule, position, day)
+    price, source = book.price(cutoff.value) if position and nights else (None, "")
+    per_night = terms.per_night(price, book.multiplier)
+    places = currency_places(book.currency)
+    expected = round_fraction(per_night * _nights_fraction(rule, day, nights), places, rounding)
+    if not expected and not charged:
+        return None
+    paid = sum((event.amount for event in charged), ZERO)
+    row = {
+        "account": key[0],
+        "instrument": key[1],
+        "currency": book.currency,
+        "rule": rule.name,
+        "date": day.isoformat(),
+        "weekday": WEEKDAYS[day.weekday()][:3].title(),
+        "cutoff": cutoff,
+        "position": position,
+        "price": price,
+        "price_source": source,
+        "notional": None if price is None else abs(position * price * book.multiplier),
+        "annual_rate": terms.rate,
+        "swap_points": terms.points,
+        "nights": nights,
+        "expected": expected,
+        "charged": paid,
+        "difference": paid - expected,
+        "events": len(charged),
+        "event_ids": ", ".join(event.event_id for event in charged),
+    }
+    return _Priced(row, rule, per_night, rounding)
+
+
+class _Terms:
+    """The rate or swap points that apply to a position on one day."""
+
+    def __init__(self, rule: FinancingRule, position: Decimal, day: date) -> None:
+        self.rule = rule
+        self.position = position
+        long = position > 0
+        self.rate: Decimal | None = None
+        self.points: Decimal | None = None
+        if position and rule.uses_points:
+            self.points = rule.points(long)
+        elif position:
+            self.rate = rule.annual_rate(long, day)
+
+    def per_night(self, price: Decimal | None, multiplier: Decimal) -> Fraction:
+        """The exact signed amount of one night under ACT/1 (credit positive); day count later."""
+        units = abs(self.position) * multiplier
+        if self.points is not None:
+            return Fraction(units * self.points * self.rule.point_size)
+        if self.rate is None or price is None:
+            return Fraction(0)
+        notional = abs(units * price)
+        sign = -1 if self.position > 0 else 1  # a long pays its rate, a short receives its rate
+        return sign * Fraction(notional) * Fraction(self.rate)
+
+
+def _nights_fraction(rule: FinancingRule, day: date, nights: int) -> Fraction:
+    """What ``nights`` nights weigh: a day-count fraction for rates, a count for swap points."""
+    if rule.uses_points:
+        return Fraction(nights)
+    return year_fraction(rule.day_count, day, nights)
+
+
+def _settle(priced: _Priced, tolerance: Decimal, audit: FinancingAudit) -> None:
+    """Classify a day, name the likely cause of a finding, and keep the row."""
+    row = priced.row
+    excess = row["expected"] - row["charged"]  # a charge is negative: paying more lowers it
+    status = classify(excess, tolerance)
+    over, under = over_and_under(excess, status)
+    finding = status in (OVERCHARGE, UNDERCHARGE)
+    row.update(
+        overcharge=over, undercharge=under, status=status, cause=_cause(priced) if finding else ""
+    )
+    audit.days.append(row)
+    if finding:
+        audit.findings.append(_finding(row))
+
+
+def _cause(priced: _Priced) -> str:
+    row = priced.row
+    if not row["events"]:
+        return "no charge booked"
+    if not row["position"]:
+        return "charged while the position was flat"
+    if not row["nights"]:
+        return "charged on a day that carries no nights (weekend or holiday)"
+    if row["events"] > 1:
+        return f"{row['events']} charges booked for one day"
+    if row["annual_rate"] is None and row["swap_points"] is None:
+        side = "long" if row["position"] > 0 else "short"
+        return f"charged, but the rule does not finance a {side} position"
+    if row["expected"] and row["charged"] == -row["expected"]:
+        return "booked with the opposite sign"
+    day = date.fromisoformat(row["date"])
+    places = currency_places(row["currency"])
+    for nights in _other_nights(row["nights"]):
+        weight = _nights_fraction(priced.rule, day, nights)
+        if round_fraction(priced.per_night * weight, places, priced.rounding) == row["charged"]:
+            return f"{nights} nights charged, {row['nights']} expected"
+    return UNEXPLAINED
+
+
+def _other_nights(expected: int) -> Iterator[int]:
+    return (n for n in range(1, 8) if n != expected)
+
+
+def _finding(row: Row) -> Finding:
+    return Finding(
+        charge="financing",
+        account=row["account"],
+        instrument=row["instrument"],
+        venue="",
+        currency=row["currency"],
+        month=row["date"][:7],
+        reference=row["date"],
+        time=row["cutoff"],
+        rule=row["rule"],
+        expected=row["expected"],
+        charged=row["charged"],
+        overcharge=row["overcharge"],
+        undercharge=row["undercharge"],
+        cause=row["cause"],
+    )
+
+
+def _missing_fixing(schedule: Schedule, rule: FinancingRule, day: date) -> Problem:
+    assert rule.benchmark is not None
+    return Problem(
+        schedule.source,
+        f"a fixing on or before {day.isoformat()} (financing rule {rule.name!r} needs one)",
+        None,
+        key=f"benchmark {rule.benchmark.name!r}",
+        reason="missing fixing",
+    )
+
+
+def _unmatched_row(event: _Event, reason: str) -> Row:
+    return {
+        "source": "financing",
+        "id": event.event_id,
+        "account": event.account,
+        "instrument": event.instrument,
+        "venue": "",
+        "time": event.time,
+        "currency": event.currency,
+        "amount": event.amount,
+        "reason": reason,
+    }
