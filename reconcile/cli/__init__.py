@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from reconcile.cli import fees as _fees  # noqa: F401  (registers the command)
 from reconcile.cli import match as _match  # noqa: F401  (registers the command)
 from reconcile.cli._app import app
 

@@ -15,7 +15,7 @@ import pyarrow.parquet as pq
 
 from reconcile import schema
 from reconcile.errors import OutputError
-from reconcile.io.writers.atomic import file_set
+from reconcile.io.writers.atomic import Writer, file_set
 from reconcile.money import minor_unit
 
 TABLE_FORMATS = ("csv", "parquet", "json")
@@ -26,12 +26,19 @@ def write_tables(
     directory: Path | str,
     fmt: str = "csv",
     extra: Mapping[str, Any] | None = None,
+    files_too: Mapping[str, Writer] | None = None,
 ) -> list[Path]:
-    """Write each table to ``directory/<name>.<fmt>``, and ``extra`` JSON documents, atomically."""
+    """Write each table to ``directory/<name>.<fmt>``, and ``extra`` JSON documents, atomically.
+
+    ``files_too`` adds other files (a workbook, a page) by name and writer to the same set, so
+    they land together with the tables or not at all.
+    """
     if fmt not in TABLE_FORMATS:
         raise OutputError(f"format: expected one of {', '.join(TABLE_FORMATS)}, found {fmt!r}")
     written = []
     with file_set(directory) as files:
+        for name, write in (files_too or {}).items():
+            written.append(files.add(name, write))
         for name, frame in tables.items():
             written.append(files.add(f"{name}.{fmt}", _WRITERS[fmt](frame)))
         for name, document in (extra or {}).items():
