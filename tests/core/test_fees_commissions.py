@@ -280,3 +280,56 @@ def test_the_period_limits_the_lines_but_not_the_tier_volume() -> None:
     )
     assert audit.commission_orders["order_id"].tolist() == ["O2"]
     assert audit.commission_orders["tier"].tolist() == ["2"]
+
+
+def test_notional_tiers_counted_across_accounts() -> None:
+    # 5 bps until the month's notional across every account reaches 1,000,000, then 3 bps:
+    # A trades 800,000 (400.00), B 300,000 (starts at 800,000: 150.00), A 100,000 (at 1,100,000:
+    # 30.00).
+    text = """
+[[commission]]
+currency = "USD"
+bps = "5"
+tier_measure = "notional"
+tier_volume = "all"
+[[commission.tiers]]
+from = "0"
+[[commission.tiers]]
+from = "1000000"
+bps = "3"
+"""
+    fills = concat(
+        order_fills([("a1", "O1", "buy", 8000, "100", "2026-11-02T15:00:00Z")], account="A"),
+        order_fills([("b1", "O2", "buy", 3000, "100", "2026-11-03T15:00:00Z")], account="B"),
+        order_fills([("a2", "O3", "sell", 1000, "100", "2026-11-04T15:00:00Z")], account="A"),
+    )
+    orders = audit_fees(fills, schedule(text)).commission_orders
+    assert _expected(orders) == [D("400.00"), D("150.00"), D("30.00")]
+    assert orders["tier"].tolist() == ["1", "1", "2"]
+
+
+def test_a_rule_stops_applying_after_its_last_valid_day() -> None:
+    # The schedule changed on 16 November: one rule until the 15th, another from the 16th.
+    text = """
+[schedule]
+timezone = "America/New_York"
+[[commission]]
+name = "until 15 November"
+currency = "USD"
+per_unit = "0.01"
+valid_until = 2026-11-15
+[[commission]]
+name = "from 16 November"
+currency = "USD"
+per_unit = "0.008"
+valid_from = 2026-11-16
+"""
+    fills = order_fills(
+        [
+            ("f1", "O1", "buy", 100, "10", "2026-11-16T04:00:00Z"),  # 15 Nov, 23:00 in New York
+            ("f2", "O2", "buy", 100, "10", "2026-11-16T15:00:00Z"),
+        ]
+    )
+    rows = audit_fees(fills, schedule(text)).commission_fills
+    assert rows["rule"].tolist() == ["until 15 November", "from 16 November"]
+    assert _expected(rows) == [D("1.00"), D("0.80")]

@@ -236,3 +236,20 @@ short_rate = "-3%"
         "charged, but the rule does not finance a long position"
     ]
     assert audit.leakage() == {"USD": D("4.17")}
+
+
+def test_a_holiday_calendar_moves_its_night_to_the_day_before() -> None:
+    # Thursday 26 Nov 2026 a holiday: Wednesday charges two nights (10.00), Thursday nothing.
+    text = RULE + 'calendar = "exchange"\n[calendars]\nexchange = [2026-11-26]\n'
+    fills = order_fills([("b", "O1", "buy", 1000, "50", "2026-11-24T15:00:00Z")])
+    audit = audit_fees(fills, schedule(text), _events(), period="2026-11-25..2026-11-26")
+    days = audit.financing_days
+    assert days["date"].tolist() == ["2026-11-25"]
+    assert (days["nights"].iloc[0], days["expected"].iloc[0]) == (2, D("-10.00"))
+
+
+def test_financing_booked_where_nothing_was_ever_traded_is_charged_while_flat() -> None:
+    events = financing([("ghost", "2026-11-03T22:00:00Z", "-7.00")], instrument="NEVER")
+    audit = audit_fees(LONG_WEEK, schedule(RULE), events, period="2026-11-03")
+    ghost = audit.financing_days[audit.financing_days["instrument"] == "NEVER"].iloc[0]
+    assert (ghost["cause"], ghost["overcharge"]) == ("charged while the position was flat", D(7))

@@ -230,12 +230,9 @@ def _fill_rows(units: list[_Unit], unmatched: list[FillFacts]) -> list[Row]:
     for unit in units:
         for fill, share in zip(unit.fills, unit.shares, strict=True):
             difference = fill.charged - share
-            if unit.rule.charged_per == "fill" or len(unit.fills) == 1:
-                status = unit.status
-            elif unit.status in (OK, WITHIN_TOLERANCE):
-                status = SPLIT_DIFFERS if difference else unit.status
-            else:
-                status = unit.status
+            # An order that ties but whose fills carry other shares than ours is not leakage.
+            split_only = difference and unit.status in (OK, WITHIN_TOLERANCE)
+            status = SPLIT_DIFFERS if split_only and len(unit.fills) > 1 else unit.status
             rows.append(
                 (
                     fill.index,

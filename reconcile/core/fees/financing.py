@@ -102,6 +102,7 @@ def audit_financing(
     booked = _bucket_events(events, books, schedule, period, audit.unmatched)
     days = _days(facts, booked, schedule, period)
     missing: dict[str, Problem] = {}
+    slots = _Slots(schedule.rounding)
     for key in sorted(books):
         candidates = _candidates(key, books[key], schedule.financing)
         for day in days:
@@ -115,7 +116,7 @@ def audit_financing(
                 if not kinds:
                     continue
                 try:
-                    priced = _price_day(key, books[key], rule, day, charged, schedule.rounding)
+                    priced = _price_day(key, books[key], slots.get(rule, day), charged)
                 except LookupError:
                     missing.setdefault(rule.name, _missing_fixing(schedule, rule, day))
                     continue
@@ -231,32 +232,50 @@ def _days(
 
 
 @dataclass(frozen=True)
+class _Slot:
+    """One rule's financing day: the same cut-off, nights and weight for every position."""
+
+    rule: FinancingRule
+    day: date
+    cutoff: pd.Timestamp
+    nights: int
+    weight: Fraction  # day-count fraction of the nights (rates) or their number (swap points)
+    rounding: Rounding
+
+
+class _Slots:
+    def __init__(self, rounding: Rounding) -> None:
+        self.rounding = rounding
+        self.known: dict[tuple[str, date], _Slot] = {}
+
+    def get(self, rule: FinancingRule, day: date) -> _Slot:
+        slot = self.known.get((rule.name, day))
+        if slot is None:
+            nights = nights_charged(day, rule.triple_weekday, rule.holidays)
+            weight = _nights_fraction(rule, day, nights)
+            slot = _Slot(rule, day, cutoff_instant(day, rule), nights, weight, self.rounding)
+            self.known[(rule.name, day)] = slot
+        return slot
+
+
+@dataclass(frozen=True)
 class _Priced:
     """A financing day's row, with what is needed to name the cause of a finding."""
 
     row: Row
-    rule: FinancingRule
-    per_night: Fraction
-    rounding: Rounding
+    slot: _Slot
+    per_night: Decimal
 
 
-def _price_day(
-    key: Key,
-    book: _Book,
-    rule: FinancingRule,
-    day: date,
-    charged: list[_Event],
-    rounding: Rounding,
-) -> _Priced | None:
+def _price_day(key: Key, book: _Book, slot: _Slot, charged: list[_Event]) -> _Priced | None:
     """The day's expected and booked amounts; None when neither is there."""
-    cutoff = cutoff_instant(day, rule)
-    position = book.position(cutoff.value)
-    nights = nights_charged(day, rule.triple_weekday, rule.holidays)
-    terms = _Terms(rule, position, day)
-    price, source = book.price(cutoff.value) if position and nights else (None, "")
+    position = book.position(slot.cutoff.value)
+    if not position and not charged:
+        return None
+    terms = _Terms(slot.rule, position, slot.day)
+    price, source = book.price(slot.cutoff.value) if position and slot.nights else (None, "")
     per_night = terms.per_night(price, book.multiplier)
-    places = currency_places(book.currency)
-    expected = round_fraction(per_night * _nights_fraction(rule, day, nights), places, rounding)
+    expected = _amount(slot, per_night, slot.nights, book.currency)
     if not expected and not charged:
         return None
     paid = sum((event.amount for event in charged), ZERO)
@@ -264,24 +283,34 @@ def _price_day(
         "account": key[0],
         "instrument": key[1],
         "currency": book.currency,
-        "rule": rule.name,
-        "date": day.isoformat(),
-        "weekday": WEEKDAYS[day.weekday()][:3].title(),
-        "cutoff": cutoff,
+        "rule": slot.rule.name,
+        "date": slot.day.isoformat(),
+        "weekday": WEEKDAYS[slot.day.weekday()][:3].title(),
+        "cutoff": slot.cutoff,
         "position": position,
         "price": price,
         "price_source": source,
         "notional": None if price is None else abs(position * price * book.multiplier),
         "annual_rate": terms.rate,
         "swap_points": terms.points,
-        "nights": nights,
+        "nights": slot.nights,
         "expected": expected,
         "charged": paid,
         "difference": paid - expected,
         "events": len(charged),
         "event_ids": ", ".join(event.event_id for event in charged),
     }
-    return _Priced(row, rule, per_night, rounding)
+    return _Priced(row, slot, per_night)
+
+
+def _amount(slot: _Slot, per_night: Decimal, nights: int, currency: str) -> Decimal:
+    """``per_night`` over ``nights`` nights from the slot's day, rounded to the minor unit."""
+    if not per_night or not nights:
+        return ZERO
+    weight = slot.weight
+    if nights != slot.nights:
+        weight = _nights_fraction(slot.rule, slot.day, nights)
+    return round_fraction(Fraction(per_night) * weight, currency_places(currency), slot.rounding)
 
 
 class _Terms:
@@ -298,16 +327,15 @@ class _Terms:
         elif position:
             self.rate = rule.annual_rate(long, day)
 
-    def per_night(self, price: Decimal | None, multiplier: Decimal) -> Fraction:
-        """The exact signed amount of one night under ACT/1 (credit positive); day count later."""
+    def per_night(self, price: Decimal | None, multiplier: Decimal) -> Decimal:
+        """The exact signed amount of one night before the day count (credit positive)."""
         units = abs(self.position) * multiplier
         if self.points is not None:
-            return Fraction(units * self.points * self.rule.point_size)
+            return units * self.points * self.rule.point_size
         if self.rate is None or price is None:
-            return Fraction(0)
-        notional = abs(units * price)
+            return ZERO
         sign = -1 if self.position > 0 else 1  # a long pays its rate, a short receives its rate
-        return sign * Fraction(notional) * Fraction(self.rate)
+        return sign * abs(units * price) * self.rate
 
 
 def _nights_fraction(rule: FinancingRule, day: date, nights: int) -> Fraction:
@@ -347,11 +375,8 @@ def _cause(priced: _Priced) -> str:
         return f"charged, but the rule does not finance a {side} position"
     if row["expected"] and row["charged"] == -row["expected"]:
         return "booked with the opposite sign"
-    day = date.fromisoformat(row["date"])
-    places = currency_places(row["currency"])
     for nights in _other_nights(row["nights"]):
-        weight = _nights_fraction(priced.rule, day, nights)
-        if round_fraction(priced.per_night * weight, places, priced.rounding) == row["charged"]:
+        if _amount(priced.slot, priced.per_night, nights, row["currency"]) == row["charged"]:
             return f"{nights} nights charged, {row['nights']} expected"
     return UNEXPLAINED
 

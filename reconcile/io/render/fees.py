@@ -25,6 +25,65 @@ TOTAL_COLUMNS = {
     "leakage": "leakage",
 }
 SHOWN_OFFENDERS = 5
+MORE_COLUMNS = "More columns in commission_orders.csv and financing_days.csv beside this page."
+#: Columns the page shows first; every column is in the tables written beside it.
+PAGE_COLUMNS = {
+    "leakage_totals": (
+        "dimension",
+        "value",
+        "currency",
+        "leakage",
+        "findings",
+        "commission_overcharge",
+        "financing_overcharge",
+        "commission_undercharge",
+        "financing_undercharge",
+    ),
+    "top_offenders": (
+        "rank",
+        "charge",
+        "reference",
+        "account",
+        "instrument",
+        "currency",
+        "expected",
+        "charged",
+        "overcharge",
+        "cause",
+    ),
+    "commission_orders": (
+        "account",
+        "order_id",
+        "instrument",
+        "venue",
+        "currency",
+        "rule",
+        "fills",
+        "quantity",
+        "tier",
+        "expected",
+        "charged",
+        "overcharge",
+        "undercharge",
+        "cause",
+    ),
+    "financing_days": (
+        "account",
+        "instrument",
+        "currency",
+        "rule",
+        "date",
+        "weekday",
+        "position",
+        "price",
+        "nights",
+        "expected",
+        "charged",
+        "overcharge",
+        "undercharge",
+        "cause",
+    ),
+}
 
 
 def describe(audit: FeeAudit, inputs: Sequence[Mapping[str, Any]], schedule_path: str) -> list[str]:
@@ -126,9 +185,13 @@ def fee_page(
 ) -> Page:
     """The audit as an HTML page: summary, totals, offenders, findings, unmatched, fee drag."""
     off = audit.findings
-    orders = audit.commission_orders
-    days = audit.financing_days
     flagged = (OVERCHARGE, UNDERCHARGE)
+    orders = audit.commission_orders
+    orders = orders[orders["status"].isin(flagged)][list(PAGE_COLUMNS["commission_orders"])]
+    days = audit.financing_days
+    days = days[days["status"].isin(flagged)][list(PAGE_COLUMNS["financing_days"])]
+    top = audit.top_offenders[list(PAGE_COLUMNS["top_offenders"])]
+    totals = audit.leakage_totals[list(PAGE_COLUMNS["leakage_totals"])]
     return Page(
         title="Fee audit",
         subtitle=audit.schedule.name or schedule_path,
@@ -143,12 +206,12 @@ def fee_page(
             Section(
                 "Leakage by account, venue, instrument and month",
                 "totals",
-                tables=[Table("Over- and undercharges beyond the tolerance", audit.leakage_totals)],
+                tables=[Table("Over- and undercharges beyond the tolerance", totals)],
             ),
             Section(
                 "Top offenders",
                 "offenders",
-                tables=[Table("The largest overcharges in each currency", audit.top_offenders)],
+                tables=[Table("The largest overcharges in each currency", top)],
             ),
             Section(
                 "Findings",
@@ -159,10 +222,8 @@ def fee_page(
                     "misapplication of the schedule reproduces the charge exactly."
                 ],
                 tables=[
-                    Table(
-                        "Commission orders off the schedule", orders[orders["status"].isin(flagged)]
-                    ),
-                    Table("Financing days off the schedule", days[days["status"].isin(flagged)]),
+                    Table("Commission orders off the schedule", orders, note=MORE_COLUMNS),
+                    Table("Financing days off the schedule", days, note=MORE_COLUMNS),
                 ],
                 tone="bad" if len(off) else "good",
             ),
