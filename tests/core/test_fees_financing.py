@@ -13,7 +13,7 @@ import pandas as pd
 import pytest
 
 from reconcile.core.fees.audit import audit_fees
-from reconcile.errors import ScheduleError
+from reconcile.errors import ScheduleError, ValidationError
 from tests.builders import concat, financing
 from tests.fee_cases import order_fills, schedule
 
@@ -253,3 +253,13 @@ def test_financing_booked_where_nothing_was_ever_traded_is_charged_while_flat() 
     audit = audit_fees(LONG_WEEK, schedule(RULE), events, period="2026-11-03")
     ghost = audit.financing_days[audit.financing_days["instrument"] == "NEVER"].iloc[0]
     assert (ghost["cause"], ghost["overcharge"]) == ("charged while the position was flat", D(7))
+
+
+def test_an_event_in_another_currency_than_its_position_is_an_input_error() -> None:
+    events = financing([("eur", "2026-11-03T22:00:00Z", "-5.00")], currency="EUR")
+    with pytest.raises(ValidationError) as caught:
+        audit_fees(LONG_WEEK, schedule(RULE), events)
+    assert [str(p) for p in caught.value.problems] == [
+        "financing row 2, column currency: expected currency USD, the currency of A X in the "
+        "fills, found 'EUR'"
+    ]

@@ -13,9 +13,9 @@ the first rule that covers its account, instrument and kind.
 from __future__ import annotations
 
 import bisect
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator
 from dataclasses import dataclass, field
-from datetime import date, datetime, timedelta
+from datetime import date, datetime, time, timedelta
 from decimal import Decimal
 from fractions import Fraction
 from typing import Any
@@ -34,8 +34,9 @@ from reconcile.core.fees.findings import (
 )
 from reconcile.core.fees.period import Period
 from reconcile.core.fees.rules import FinancingRule, Schedule
-from reconcile.errors import Problem, ScheduleError
+from reconcile.errors import Problem, ScheduleError, raise_if_problems
 from reconcile.money import ZERO, Rounding, currency_places, round_fraction
+from reconcile.schema import SOURCE_ROW
 from reconcile.timezones import zone
 
 Row = dict[str, Any]
@@ -96,18 +97,22 @@ def audit_financing(
     """Every (position, rule, day) the schedule finances or an event was booked for, in period."""
     books = _books(facts, marks)
     events = _events(financing)
+    _check_currencies(financing, events, books)
     for event in events:
         books.setdefault((event.account, event.instrument), _Book(event.currency))
+    candidates = {
+        key: [r for r in schedule.financing if r.selector.covers(*key, book.currency)]
+        for key, book in books.items()
+    }
     audit = FinancingAudit([], [], [])
-    booked = _bucket_events(events, books, schedule, period, audit.unmatched)
+    booked = _bucket_events(financing, events, candidates, schedule, period, audit.unmatched)
     days = _days(facts, booked, schedule, period)
     missing: dict[str, Problem] = {}
     slots = _Slots(schedule.rounding)
     for key in sorted(books):
-        candidates = _candidates(key, books[key], schedule.financing)
         for day in days:
             claimed: set[str] = set()
-            for rule in candidates:
+            for rule in candidates[key]:
                 if not rule.selector.valid_on(day):
                     continue
                 kinds = [kind for kind in rule.kinds if kind not in claimed]
@@ -148,7 +153,7 @@ def _books(facts: list[FillFacts], marks: pd.DataFrame | None) -> dict[Key, _Boo
 def _attach_marks(books: dict[Key, _Book], marks: pd.DataFrame) -> None:
     ordered = marks.sort_values("time", kind="stable")
     series: dict[Key, tuple[list[int], list[Decimal]]] = {}
-    for account, instrument, time, price in zip(
+    for account, instrument, stamp, price in zip(
         ordered["account"].tolist(),
         ordered["instrument"].tolist(),
         ordered["time"].tolist(),
@@ -156,7 +161,7 @@ def _attach_marks(books: dict[Key, _Book], marks: pd.DataFrame) -> None:
         strict=True,
     ):
         times, prices = series.setdefault((account, instrument), ([], []))
-        times.append(time.value)
+        times.append(stamp.value)
         prices.append(price)
     for (account, instrument), book in books.items():
         book.marks = [series[k] for k in ((account, instrument), ("", instrument)) if k in series]
@@ -168,50 +173,77 @@ def _events(financing: pd.DataFrame) -> list[_Event]:
     return [_Event(*row) for row in zip(*values, strict=True)]
 
 
-def _candidates(key: Key, book: _Book, rules: Sequence[FinancingRule]) -> list[FinancingRule]:
-    return [rule for rule in rules if rule.selector.covers(key[0], key[1], book.currency)]
+def _check_currencies(
+    financing: pd.DataFrame, events: list[_Event], books: dict[Key, _Book]
+) -> None:
+    """A financing event must be in its position's currency, or it cannot be compared."""
+    rows = (
+        financing[SOURCE_ROW].tolist() if SOURCE_ROW in financing.columns else [None] * len(events)
+    )
+    source = str((financing.attrs.get("read_summary") or {}).get("source", "financing"))
+    problems = [
+        Problem(
+            source,
+            f"currency {book.currency}, the currency of {event.account} {event.instrument} in "
+            "the fills",
+            event.currency,
+            row,
+            "currency",
+            "currency mismatch",
+        )
+        for event, row in zip(events, rows, strict=True)
+        if (book := books.get((event.account, event.instrument)))
+        and event.currency != book.currency
+    ]
+    raise_if_problems(source, problems)
 
 
 def _bucket_events(
+    financing: pd.DataFrame,
     events: list[_Event],
-    books: dict[Key, _Book],
+    candidates: dict[Key, list[FinancingRule]],
     schedule: Schedule,
     period: Period | None,
     unmatched: list[Row],
 ) -> dict[tuple[Key, str, date], list[_Event]]:
+    """Events by position, kind and financing day; those no rule covers go to ``unmatched``."""
+    local = _LocalTimes(financing["time"])
     booked: dict[tuple[Key, str, date], list[_Event]] = {}
-    for event in sorted(events, key=lambda e: e.time):
+    for n in sorted(range(len(events)), key=lambda i: (events[i].time.value, i)):
+        event = events[n]
         key = (event.account, event.instrument)
-        rule = next(
-            (r for r in _candidates(key, books[key], schedule.financing) if event.kind in r.kinds),
-            None,
-        )
+        rule = next((r for r in candidates[key] if event.kind in r.kinds), None)
         if rule is None:
             reason = f"no financing rule covers kind {event.kind} for this account and instrument"
-            if period is None or _local_day(event.time, schedule.timezone) in period:
+            if period is None or local.at(n, schedule.timezone)[0] in period:
                 unmatched.append(_unmatched_row(event, reason))
             continue
-        day = financing_day(event.time, rule)
+        day, clock = local.at(n, rule.cutoff_timezone)
+        if clock < rule.cutoff:
+            day -= ONE_DAY  # before the day's cut-off: it pays for the previous one
         if period is None or day in period:
             booked.setdefault((key, event.kind, day), []).append(event)
     return booked
 
 
-def financing_day(time: pd.Timestamp, rule: FinancingRule) -> date:
-    """The day whose cut-off is the latest at or before ``time``."""
-    local = time.tz_convert(zone(rule.cutoff_timezone))
-    day: date = local.date()
-    return day if local.time() >= rule.cutoff else day - ONE_DAY
+class _LocalTimes:
+    """Local dates and clock times of every event, converted once per time zone."""
+
+    def __init__(self, times: pd.Series) -> None:
+        self.times = times
+        self.zones: dict[str, tuple[list[date], list[time]]] = {}
+
+    def at(self, n: int, timezone: str) -> tuple[date, time]:
+        if timezone not in self.zones:
+            local = self.times.dt.tz_convert(zone(timezone))
+            self.zones[timezone] = (local.dt.date.tolist(), local.dt.time.tolist())
+        days, clocks = self.zones[timezone]
+        return days[n], clocks[n]
 
 
 def cutoff_instant(day: date, rule: FinancingRule) -> pd.Timestamp:
     local = datetime.combine(day, rule.cutoff, tzinfo=zone(rule.cutoff_timezone))
     return pd.Timestamp(local).tz_convert("UTC")
-
-
-def _local_day(time: pd.Timestamp, timezone: str) -> date:
-    day: date = time.tz_convert(zone(timezone)).date()
-    return day
 
 
 def _days(
