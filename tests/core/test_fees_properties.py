@@ -12,7 +12,7 @@ from decimal import Decimal
 from fractions import Fraction
 
 import pandas as pd
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import reconcile
@@ -22,6 +22,8 @@ from tests.fee_cases import schedule
 from tests.strategies import PLACES, histories
 
 D = Decimal
+#: Each example runs the whole audit (and the engine): a third of the profile's examples.
+FEWER = settings(max_examples=max(10, settings().max_examples // 3))
 TERMS = st.tuples(
     st.sampled_from(["0", "0.0035", "0.5", "1.10"]),  # per unit
     st.sampled_from(["0", "0.5", "2"]),  # basis points
@@ -98,6 +100,7 @@ def reference_charges(fills: pd.DataFrame, terms: tuple[str, ...]) -> list[Decim
     return [charges[n] for n in range(len(records))]
 
 
+@FEWER
 @given(data=st.data(), history=histories(max_fills=12), terms=TERMS)
 def test_fills_charged_exactly_by_the_schedule_show_zero_leakage(
     data: st.DataObject, history: pd.DataFrame, terms: tuple[str, str, str, str]
@@ -110,6 +113,7 @@ def test_fills_charged_exactly_by_the_schedule_show_zero_leakage(
     assert set(audit.commission_fills["status"]) == {"ok"}
 
 
+@FEWER
 @given(
     data=st.data(),
     history=histories(max_fills=12),
@@ -136,16 +140,18 @@ def test_adding_x_to_one_fill_shows_leakage_x_on_that_fill_alone(
     assert audit.findings["overcharge"].tolist() == [extra]
 
 
+@FEWER
 @given(history=histories(max_keys=2, max_fills=15), cut=st.integers(0, 40))
 def test_positions_at_a_cut_off_are_the_engines_positions(history: pd.DataFrame, cut: int) -> None:
     # Derived: the position financed at a cut-off equals what reconcile.match reports for the
     # fills before that instant. Fill times are odd minutes from 09:00 UTC; cut-offs fall between.
+    # 1,000 points a unit keep the smallest position (0.25 units) from rounding to nothing.
     cutoff = pd.Timestamp("2026-11-02T09:00:00Z") + pd.Timedelta(minutes=2 * cut)
     before = history[pd.to_datetime(history["time"]) < cutoff]
     text = f"""
 [[financing]]
-long_points = "1"
-short_points = "1"
+long_points = "1000"
+short_points = "1000"
 cutoff = "{cutoff.strftime("%H:%M")}"
 """
     events = pd.DataFrame(

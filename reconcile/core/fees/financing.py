@@ -106,34 +106,54 @@ def audit_financing(
     }
     audit = FinancingAudit([], [], [])
     booked = _bucket_events(financing, events, candidates, schedule, period, audit.unmatched)
-    days = _days(facts, booked, schedule, period)
-    missing: dict[str, Problem] = {}
-    slots = _Slots(schedule.rounding)
+    nightly = _Nightly(schedule, booked, tolerance, audit)
+    days = _days(facts, booked, period)
     for key in sorted(books):
-        for day in days:
-            claimed: set[str] = set()
-            for rule in candidates[key]:
-                if not rule.selector.valid_on(day):
-                    continue
-                kinds = [kind for kind in rule.kinds if kind not in claimed]
-                claimed.update(kinds)
-                charged = [e for kind in kinds for e in booked.pop((key, kind, day), [])]
-                if not kinds:
-                    continue
-                try:
-                    priced = _price_day(key, books[key], slots.get(rule, day), charged)
-                except LookupError:
-                    missing.setdefault(rule.name, _missing_fixing(schedule, rule, day))
-                    continue
-                if priced is not None:
-                    _settle(priced, tolerance, audit)
-    if missing:
-        raise ScheduleError(schedule.source, list(missing.values()))
+        nightly.audit_position(key, books[key], candidates[key], days)
+    if nightly.missing:
+        raise ScheduleError(schedule.source, list(nightly.missing.values()))
     for (_key, kind, day), left in sorted(booked.items(), key=lambda item: str(item[0])):
         for event in left:
             reason = f"no financing rule valid on {day.isoformat()} covers kind {kind}"
             audit.unmatched.append(_unmatched_row(event, reason))
     return audit
+
+
+@dataclass
+class _Nightly:
+    """Prices one position's days rule by rule, taking the booked events each rule audits."""
+
+    schedule: Schedule
+    booked: dict[tuple[Key, str, date], list[_Event]]
+    tolerance: Decimal
+    audit: FinancingAudit
+    missing: dict[str, Problem] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        self.slots = _Slots(self.schedule.rounding)
+
+    def audit_position(
+        self, key: Key, book: _Book, rules: list[FinancingRule], days: list[date]
+    ) -> None:
+        for day in days:
+            claimed: set[str] = set()
+            for rule in rules:
+                kinds = (
+                    [k for k in rule.kinds if k not in claimed]
+                    if rule.selector.valid_on(day)
+                    else []
+                )
+                if not kinds:
+                    continue
+                claimed.update(kinds)
+                charged = [e for kind in kinds for e in self.booked.pop((key, kind, day), [])]
+                try:
+                    priced = _price_day(key, book, self.slots.get(rule, day), charged)
+                except LookupError:
+                    self.missing.setdefault(rule.name, _missing_fixing(self.schedule, rule, day))
+                    continue
+                if priced is not None:
+                    _settle(priced, self.tolerance, self.audit)
 
 
 def _books(facts: list[FillFacts], marks: pd.DataFrame | None) -> dict[Key, _Book]:
@@ -249,7 +269,6 @@ def cutoff_instant(day: date, rule: FinancingRule) -> pd.Timestamp:
 def _days(
     facts: list[FillFacts],
     booked: dict[tuple[Key, str, date], list[_Event]],
-    schedule: Schedule,
     period: Period | None,
 ) -> list[date]:
     """Every calendar day of the period, or from the first to the last day the inputs touch."""
