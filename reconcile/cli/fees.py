@@ -7,7 +7,7 @@ from typing import Annotated
 
 import typer
 
-from reconcile.cli._app import Dedupe, InputFile, Method, Timezone, app, reports_errors
+from reconcile.cli._app import Dedupe, InputFile, Timezone, app, reports_errors
 
 
 @app.command("fees")
@@ -34,7 +34,7 @@ def fees_command(
     period: Annotated[
         str | None,
         typer.Option(
-            "--period", metavar="P", help="YYYY-MM or YYYY-MM-DD..YYYY-MM-DD (schedule's zone)."
+            "--period", metavar="P", help="YYYY-MM, YYYY-MM-DD or FROM..TO, in the schedule's zone."
         ),
     ] = None,
     tolerance: Annotated[
@@ -43,7 +43,14 @@ def fees_command(
             "--tolerance", metavar="AMOUNT", help="Differences up to this amount are not findings."
         ),
     ] = "0",
-    method: Method = "fifo",
+    method: Annotated[
+        str,
+        typer.Option(
+            "--method",
+            metavar="fifo|lifo|hifo|average",
+            help="Relief method of the gross realized P&L that fee drag divides by.",
+        ),
+    ] = "fifo",
     timezone: Timezone = None,
     dedupe: Dedupe = False,
     out: Annotated[
