@@ -23,6 +23,16 @@ demo: $(STAMP)
 		--timezone America/New_York --title "Larkmoor Capital: October and November 2026" \
 		--out $(DEMO_OUT)/report
 	@echo "Demo results are in $(DEMO_OUT)/"
+	# The fee audit exits 1 when it finds leakage: the sample holds one late borrow fee, the
+	# planted copy one overcharge of each kind (sample_data/fees-planted/planted.csv).
+	$(BIN)/reconcile fees sample_data/fills.csv --schedule sample_data/larkmoor-schedule.toml \
+		--financing sample_data/financing.csv --marks sample_data/marks.csv \
+		--format html --out $(DEMO_OUT)/fees || test $$? -eq 1
+	$(BIN)/reconcile fees sample_data/fees-planted/fills.csv \
+		--schedule sample_data/larkmoor-schedule.toml \
+		--financing sample_data/fees-planted/financing.csv --marks sample_data/marks.csv \
+		--format html --out $(DEMO_OUT)/fees-planted || test $$? -eq 1
+	@echo "Fee audits are in $(DEMO_OUT)/fees/ and $(DEMO_OUT)/fees-planted/ (open fees.html)"
 
 test: lint typecheck unit
 
@@ -42,6 +52,7 @@ benchmark: $(STAMP)
 sample-data: $(STAMP)
 	$(BIN)/python sample_data/generate.py
 	$(BIN)/python sample_data/generate_sources.py
+	$(BIN)/python sample_data/fees_scenario.py
 
 clean:
 	rm -rf $(VENV) $(DEMO_OUT) .mypy_cache .pytest_cache .ruff_cache .hypothesis

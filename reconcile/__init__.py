@@ -20,17 +20,28 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
+    from reconcile.core.fees.audit import FeeAudit, audit_fees
     from reconcile.core.matching import match
     from reconcile.core.stats import Stats, stats
     from reconcile.core.summary import currency_totals
-    from reconcile.io.readers import check, load_profile, read_fills, read_financing, read_opening
+    from reconcile.io.readers import (
+        check,
+        load_profile,
+        read_fills,
+        read_financing,
+        read_marks,
+        read_opening,
+    )
+    from reconcile.io.readers.schedule import read_schedule
     from reconcile.io.writers.tables import write_tables
     from reconcile.money import allocate, minor_unit, round_money
 
 __all__ = [
     "Book",
+    "FeeAudit",
     "Stats",
     "allocate",
+    "audit_fees",
     "check",
     "currency_totals",
     "errors",
@@ -39,7 +50,9 @@ __all__ = [
     "minor_unit",
     "read_fills",
     "read_financing",
+    "read_marks",
     "read_opening",
+    "read_schedule",
     "round_money",
     "stats",
     "write_tables",
@@ -61,6 +74,10 @@ _HOMES = {
     "load_profile": "reconcile.io.readers",
     "Stats": "reconcile.core.stats",
     "stats": "reconcile.core.stats",
+    "FeeAudit": "reconcile.core.fees.audit",
+    "audit_fees": "reconcile.core.fees.audit",
+    "read_marks": "reconcile.io.readers",
+    "read_schedule": "reconcile.io.readers.schedule",
 }
 
 

@@ -9,13 +9,15 @@
     │   ├── MissingColumnsError         required columns are absent
     │   └── ValidationError        rows with bad values: .problems lists each one
     ├── ConfigError                exit 2: an option, profile, schedule or config is invalid
+    │   └── ScheduleError               a fee schedule's values: .problems names file and key path
     └── OutputError                exit 2: results could not be written (none left half-written)
 
 Breaks and fee leakage are results, not errors: the commands exit 1 for them and raise nothing.
 
 A :class:`Problem` names the source, row (the header is row 1), column, the value found and what was
 expected, so each message reads like ``fills.csv row 14, column quantity: expected a decimal > 0,
-found '-5'``.
+found '-5'``. A problem in a TOML file names the key path instead of row and column:
+``schedule.toml commission[2].tiers[1].per_unit: expected a decimal >= 0, found '-1'``.
 """
 
 from __future__ import annotations
@@ -41,9 +43,12 @@ class Problem:
     row: int | None = None
     column: str | None = None
     reason: str = "invalid value"
+    key: str | None = None  # the key path in a TOML file, e.g. commission[2].per_unit
 
     def __str__(self) -> str:
         where = self.source
+        if self.key is not None:
+            where += f" {self.key}"
         if self.row is not None:
             where += f" row {self.row}"
         if self.column is not None:
@@ -90,20 +95,34 @@ class ValidationError(InputError):
 
     def __init__(self, source: str, problems: Sequence[Problem]) -> None:
         self.source = source
-        listed = list(problems)[:MAX_LISTED_PROBLEMS]
-        lines = [f"{source}: {len(problems)} problem{'s' if len(problems) != 1 else ''} found"]
-        lines += [f"  {p}" for p in listed]
-        if len(problems) > len(listed):
-            lines.append(f"  ... and {len(problems) - len(listed)} more")
-        super().__init__("\n".join(lines), problems)
+        super().__init__(problem_listing(source, problems), problems)
 
 
 class ConfigError(ReconcileError):
     """An option, profile, fee schedule or configuration file is invalid."""
 
 
+class ScheduleError(ConfigError):
+    """A fee schedule cannot be used; ``problems`` lists every problem (file and key path)."""
+
+    def __init__(self, source: str, problems: Sequence[Problem]) -> None:
+        super().__init__(problem_listing(source, problems))
+        self.source = source
+        self.problems: tuple[Problem, ...] = tuple(problems)
+
+
 class OutputError(ReconcileError):
     """Results could not be written; no partial output is left behind."""
+
+
+def problem_listing(source: str, problems: Sequence[Problem]) -> str:
+    """``source: N problems found`` and the first :data:`MAX_LISTED_PROBLEMS`, one a line."""
+    listed = list(problems)[:MAX_LISTED_PROBLEMS]
+    lines = [f"{source}: {len(problems)} problem{'s' if len(problems) != 1 else ''} found"]
+    lines += [f"  {p}" for p in listed]
+    if len(problems) > len(listed):
+        lines.append(f"  ... and {len(problems) - len(listed)} more")
+    return "\n".join(lines)
 
 
 def raise_if_problems(source: str, problems: Sequence[Problem]) -> None:

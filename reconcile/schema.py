@@ -242,6 +242,21 @@ MONEY_COLUMNS: Final = frozenset(
         "realized_net",
         "amount",
         *STATISTICS_MONEY,
+        "expected",
+        "charged",
+        "difference",
+        "overcharge",
+        "undercharge",
+        "notional",
+        "commission_overcharge",
+        "commission_undercharge",
+        "financing_overcharge",
+        "financing_undercharge",
+        "leakage",
+        "gross_realized",
+        "financing_cost",
+        "commission_expected",
+        "financing_expected",
     }
 )
 
@@ -268,13 +283,171 @@ DECIMAL_COLUMNS: Final = frozenset(
         "amount",
         *STATISTICS_MONEY,
         *STATISTICS_RATIOS,
+        "expected",
+        "charged",
+        "difference",
+        "overcharge",
+        "undercharge",
+        "notional",
+        "commission_overcharge",
+        "commission_undercharge",
+        "financing_overcharge",
+        "financing_undercharge",
+        "leakage",
+        "gross_realized",
+        "financing_cost",
+        "commission_expected",
+        "financing_expected",
+        "tier_volume",
+        "position",
+        "annual_rate",
+        "swap_points",
+        "fee_drag_pct",
+        "fee_drag_expected_pct",
     }
 )
-TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time", *STATISTICS_TIMES})
+TIME_COLUMNS: Final = frozenset({"time", "open_time", "close_time", "cutoff", *STATISTICS_TIMES})
 DURATION_COLUMNS: Final = frozenset({"holding_time", *STATISTICS_DURATIONS})
 INTEGER_COLUMNS: Final = frozenset(
-    {"trip_id", "fills", "open_lots", SOURCE_ROW, *STATISTICS_COUNTS}
+    {
+        "trip_id",
+        "fills",
+        "open_lots",
+        SOURCE_ROW,
+        "nights",
+        "events",
+        "findings",
+        "rank",
+        *STATISTICS_COUNTS,
+    }
 )
 #: Decimal places of every ratio; they are always shown with all of them.
 RATIO_PLACES: Final = 4
 FIXED_PLACES: Final = dict.fromkeys(STATISTICS_RATIOS, RATIO_PLACES)
+
+# The fee audit (reconcile fees): inputs beside the fills, and the tables it writes.
+
+MARKS_REQUIRED: Final = ("time", "instrument", "price")
+MARKS_DEFAULTS: Final = {"account": ""}
+MARKS_COLUMNS: Final = (*MARKS_REQUIRED, *MARKS_DEFAULTS)
+
+COMMISSION_FILLS: Final = (
+    "fill_id",
+    "order_id",
+    "account",
+    "instrument",
+    "venue",
+    "side",
+    "time",
+    "quantity",
+    "price",
+    "multiplier",
+    "notional",
+    "currency",
+    "rule",
+    "charged_per",
+    "tier",
+    "expected",
+    "charged",
+    "difference",
+    "status",
+)
+COMMISSION_ORDERS: Final = (
+    "account",
+    "order_id",
+    "first_fill_id",
+    "instrument",
+    "venue",
+    "currency",
+    "rule",
+    "charged_per",
+    "month",
+    "time",
+    "fills",
+    "quantity",
+    "notional",
+    "tier",
+    "tier_volume",
+    "expected",
+    "charged",
+    "difference",
+    "overcharge",
+    "undercharge",
+    "status",
+    "cause",
+)
+FINANCING_DAYS: Final = (
+    "account",
+    "instrument",
+    "currency",
+    "rule",
+    "date",
+    "weekday",
+    "cutoff",
+    "position",
+    "price",
+    "price_source",
+    "notional",
+    "annual_rate",
+    "swap_points",
+    "nights",
+    "expected",
+    "charged",
+    "difference",
+    "overcharge",
+    "undercharge",
+    "status",
+    "cause",
+    "events",
+    "event_ids",
+)
+FEE_UNMATCHED: Final = (
+    "source",
+    "id",
+    "account",
+    "instrument",
+    "venue",
+    "time",
+    "currency",
+    "amount",
+    "reason",
+)
+FINDINGS: Final = (
+    "charge",
+    "account",
+    "instrument",
+    "venue",
+    "currency",
+    "month",
+    "reference",
+    "time",
+    "rule",
+    "expected",
+    "charged",
+    "overcharge",
+    "undercharge",
+    "cause",
+)
+TOP_OFFENDERS: Final = ("rank", *FINDINGS)
+LEAKAGE_TOTALS: Final = (
+    "dimension",
+    "value",
+    "currency",
+    "commission_overcharge",
+    "commission_undercharge",
+    "financing_overcharge",
+    "financing_undercharge",
+    "leakage",
+    "findings",
+)
+FEE_DRAG: Final = (
+    "account",
+    "currency",
+    "gross_realized",
+    "commission",
+    "financing_cost",
+    "fee_drag_pct",
+    "commission_expected",
+    "financing_expected",
+    "fee_drag_expected_pct",
+)

@@ -23,6 +23,10 @@ PUBLIC = [
     "load_profile",
     "Stats",
     "stats",
+    "FeeAudit",
+    "audit_fees",
+    "read_marks",
+    "read_schedule",
 ]
 
 

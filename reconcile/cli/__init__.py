@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from reconcile.cli import check as _check  # noqa: F401  (registers the command)
+from reconcile.cli import fees as _fees  # noqa: F401  (registers the command)
 from reconcile.cli import match as _match  # noqa: F401  (registers the command)
 from reconcile.cli import report as _report  # noqa: F401
 from reconcile.cli import stats as _stats  # noqa: F401

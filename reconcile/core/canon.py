@@ -625,3 +625,27 @@ def screen(
         summary.setdefault("duplicates_dropped", 0)
         result.attrs["read_summary"] = summary
         return result, rejected
+
+
+def canonical_marks(
+    frame: pd.DataFrame, *, source: str = "marks", timezone: str | None = None
+) -> pd.DataFrame:
+    """Validate and convert marks (time, instrument, price, optional account) for the fee audit.
+
+    A blank account applies the mark to every account that holds the instrument.
+    """
+    _require(frame, schema.MARKS_REQUIRED, source)
+    frame = frame.reset_index(drop=True)
+    if timezone is not None:
+        zone(timezone)  # an unknown zone is an error even when no time needs it
+    check = _Checker(frame, source, _source_rows(frame))
+    columns: dict[str, pa.Array | pd.Series] = {
+        "time": check.time("time", timezone),
+        "account": check.text("account", required=False),
+        "instrument": check.text("instrument", required=True),
+        "price": check.decimal("price"),
+    }
+    keep = np.ones(len(frame), dtype=bool)
+    result = _assemble(columns, frame, keep, [], check.rows)
+    _raise(check)
+    return result

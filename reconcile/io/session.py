@@ -7,20 +7,27 @@ them too.
 from __future__ import annotations
 
 import functools
+import json
+import sys
 from dataclasses import dataclass, field
 from importlib.metadata import version
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
 from reconcile.core.book import Book
 from reconcile.core.matching import match
-from reconcile.io.readers import read_opening
+from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError
+from reconcile.io.readers import read_marks, read_opening
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
 from reconcile.io.render import terminal
 from reconcile.io.writers.atomic import file_set
-from reconcile.io.writers.tables import text_table, write_tables
+from reconcile.io.writers.tables import decimal_text, text_table, write_tables
+
+if TYPE_CHECKING:  # the fee audit's modules load with its first use (pydantic is slow to import)
+    from reconcile.core.fees.audit import FeeAudit
+    from reconcile.core.fees.rules import Schedule
 from reconcile.notice import CAUTION
 from reconcile.timezones import tz_database_version
 
@@ -189,3 +196,155 @@ def check_file(
     terminal.warnings(terminal.console(stderr=True), read.warnings)
     terminal.check_summary(terminal.console(), read.summary, read.problems, rejects)
     return EXIT_BAD_INPUT if len(read.rejected) else EXIT_OK
+
+
+# The fee audit (reconcile fees).
+
+FEE_FORMATS = ("csv", "json", "xlsx", "html")
+DEFAULT_FEES_OUT = Path("reconcile-out") / "fees"
+
+
+@dataclass(frozen=True)
+class FeeInputs:
+    inputs: Inputs
+    schedule: Schedule
+    schedule_path: Path
+    marks: pd.DataFrame | None = None
+
+    def summaries(self) -> list[dict[str, Any]]:
+        found = self.inputs.summaries()
+        if self.marks is not None:
+            found.append(self.marks.attrs["read_summary"])
+        return found
+
+
+def read_fee_inputs(
+    fills: Path,
+    schedule: Path,
+    financing: Path | None = None,
+    marks: Path | None = None,
+    *,
+    timezone: str | None = None,
+    dedupe: bool = False,
+) -> FeeInputs:
+    """Read the schedule first (a bad schedule stops the run before any large file is read)."""
+    from reconcile.io.readers.schedule import read_schedule
+
+    rules = read_schedule(schedule)
+    inputs = read_inputs(fills, financing, timezone=timezone, dedupe=dedupe)
+    priced = None
+    if marks is not None:
+        priced = read_marks(marks, timezone=timezone)
+        priced.attrs["read_summary"] = {
+            "source": str(marks),
+            "accepted": len(priced),
+            "kind": "marks",
+        }
+    return FeeInputs(inputs, rules, schedule, priced)
+
+
+def audit_fee_inputs(inputs: FeeInputs, **options: Any) -> FeeAudit:
+    from reconcile.core.fees.audit import audit_fees
+
+    return audit_fees(
+        inputs.inputs.fills,
+        inputs.schedule,
+        inputs.inputs.financing,
+        marks=inputs.marks,
+        timezone=inputs.inputs.timezone,
+        **options,
+    )
+
+
+def check_fee_format(fmt: str) -> None:
+    if fmt not in FEE_FORMATS:
+        raise ConfigError(f"format: expected one of {', '.join(FEE_FORMATS)}, found {fmt!r}")
+
+
+def report_fee_audit(audit: FeeAudit, inputs: FeeInputs, out: Path | None, fmt: str) -> None:
+    """Write the results (or, as JSON with no folder, print them) and show the summary."""
+    from reconcile.io.render import fees as fees_render
+
+    if out is None and fmt == "json":
+        sys.stdout.write(json.dumps(fee_document(audit, inputs), indent=1) + "\n")
+        return
+    written = write_fee_audit(audit, inputs, out or DEFAULT_FEES_OUT, fmt)
+    fees_render.fee_summary(
+        terminal.console(), audit, inputs.summaries(), str(inputs.schedule_path), written
+    )
+
+
+def write_fee_audit(audit: FeeAudit, inputs: FeeInputs, out: Path, fmt: str) -> list[Path]:
+    from reconcile.io.render import fees as fees_render
+    from reconcile.io.render.html import render_page
+    from reconcile.io.writers.xlsx import write_workbook
+
+    check_fee_format(fmt)
+    manifest = {"run.json": fee_manifest(audit, inputs)}
+    tables = audit.tables()
+    if fmt in ("csv", "json"):
+        return write_tables(tables, out, fmt, manifest)
+    if fmt == "xlsx":
+        about = [*_fee_lines(audit, inputs), CAUTION]
+        workbook = functools.partial(write_workbook, sheets=tables, title="Fee audit", about=about)
+        return write_tables({}, out, "csv", manifest, {"fees.xlsx": workbook})
+    page = fees_render.fee_page(
+        audit, inputs.summaries(), str(inputs.schedule_path), _provenance(audit, inputs)
+    )
+    html = render_page(page)
+
+    def write_page(path: Path) -> None:
+        path.write_text(html, encoding="utf-8")
+
+    return write_tables(tables, out, "csv", manifest, {"fees.html": write_page})
+
+
+def fee_exit_code(audit: FeeAudit) -> int:
+    return EXIT_FOUND if audit.has_leakage else EXIT_OK
+
+
+def fee_manifest(audit: FeeAudit, inputs: FeeInputs) -> dict[str, Any]:
+    """What produced a fee audit: the schedule, the options, the inputs and what was found."""
+    schedule = audit.schedule
+    return {
+        "command": "fees",
+        "reconcile_version": version("reconcile"),
+        "schedule": {
+            "source": str(inputs.schedule_path),
+            "name": schedule.name,
+            "timezone": schedule.timezone,
+            "rounding": schedule.rounding,
+            "commission_rules": len(schedule.commission),
+            "financing_rules": len(schedule.financing),
+        },
+        "period": None if audit.period is None else str(audit.period),
+        "tolerance": decimal_text(audit.tolerance),
+        "gross_realized_method": audit.method,
+        "timezone_for_naive_times": inputs.inputs.timezone,
+        "tz_database": tz_database_version(),
+        "inputs": inputs.summaries(),
+        "tables": {name: len(frame) for name, frame in audit.tables().items()},
+        "leakage": {code: decimal_text(v, code) for code, v in audit.leakage().items()},
+        "caution": CAUTION,
+    }
+
+
+def fee_document(audit: FeeAudit, inputs: FeeInputs) -> dict[str, Any]:
+    """The whole audit as one JSON document: the manifest and every table as exact text."""
+    tables = {
+        name: text_table(frame).to_dict(orient="records") for name, frame in audit.tables().items()
+    }
+    return {**fee_manifest(audit, inputs), "results": tables}
+
+
+def _fee_lines(audit: FeeAudit, inputs: FeeInputs) -> list[str]:
+    from reconcile.io.render import fees as fees_render
+
+    return fees_render.describe(audit, inputs.summaries(), str(inputs.schedule_path))
+
+
+def _provenance(audit: FeeAudit, inputs: FeeInputs) -> list[str]:
+    return [
+        f"reconcile {version('reconcile')}; time-zone database {tz_database_version()}.",
+        f"Schedule {inputs.schedule_path}; the tables beside this page hold every row exactly.",
+    ]

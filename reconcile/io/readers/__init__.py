@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from reconcile.core.canon import canonical_opening
+from reconcile.core.canon import canonical_marks, canonical_opening
 from reconcile.io.readers.profiles import Profile, load_profile
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
 from reconcile.io.readers.tabular import read_table
@@ -22,6 +22,7 @@ __all__ = [
     "load_profile",
     "read_fills",
     "read_financing",
+    "read_marks",
     "read_opening",
     "read_source",
     "read_table",
@@ -97,3 +98,11 @@ def check(
         keep_rejects=True,
         fix_lenient=fix_lenient,
     )
+
+
+def read_marks(
+    path: Path | str, *, timezone: str | None = None, input_format: str | None = None
+) -> pd.DataFrame:
+    """Read marks (time, instrument, price, optional account) that price positions for financing."""
+    raw = read_table(path, input_format)
+    return canonical_marks(raw, source=str(path), timezone=timezone)

@@ -15,7 +15,7 @@ import pyarrow.parquet as pq
 
 from reconcile import schema
 from reconcile.errors import OutputError
-from reconcile.io.writers.atomic import FileSet, file_set
+from reconcile.io.writers.atomic import FileSet, Writer, file_set
 from reconcile.money import minor_unit
 
 TABLE_FORMATS = ("csv", "parquet", "json")
@@ -26,12 +26,18 @@ def write_tables(
     directory: Path | str,
     fmt: str = "csv",
     extra: Mapping[str, Any] | None = None,
+    files_too: Mapping[str, Writer] | None = None,
 ) -> list[Path]:
-    """Write each table to ``directory/<name>.<fmt>``, and ``extra`` JSON documents, atomically."""
+    """Write each table to ``directory/<name>.<fmt>``, and ``extra`` JSON documents, atomically.
+
+    ``files_too`` adds other files (a workbook, a page) by name and writer to the same set, so
+    they land together with the tables or not at all.
+    """
     if fmt not in TABLE_FORMATS:
         raise OutputError(f"format: expected one of {', '.join(TABLE_FORMATS)}, found {fmt!r}")
     with file_set(directory) as files:
-        return add_tables(files, tables, fmt, extra)
+        written = [files.add(name, write) for name, write in (files_too or {}).items()]
+        return written + add_tables(files, tables, fmt, extra)
 
 
 def add_tables(
