@@ -32,6 +32,14 @@ def report_command(
     dedupe: Dedupe = False,
     over: Over = "round-trips",
     zero_pnl: ZeroPnl = "breakeven",
+    schedule: Annotated[
+        Path | None,
+        typer.Option("--schedule", metavar="FILE", help="Fee schedule: add the fee audit."),
+    ] = None,
+    marks: Annotated[
+        Path | None,
+        typer.Option("--marks", metavar="FILE", help="Prices for financing notional (fees)."),
+    ] = None,
     title: Annotated[
         str, typer.Option("--title", metavar="TEXT", help="Heading of the page and workbook.")
     ] = "Trading report",
@@ -50,7 +58,8 @@ def report_command(
         over=over, zero_pnl=zero_pnl, timezone=timezone, title=title, fmt=fmt
     )
     inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    parts = reporting.fee_parts(inputs, schedule, marks, method=method)
     book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
-    report = reporting.make_report(book, inputs, request)
+    report = reporting.make_report(book, inputs, request, parts)
     written = reporting.write_report_folder(report, book, inputs, request, out)
     reporting.show_report(report, inputs, written)

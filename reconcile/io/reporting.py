@@ -13,6 +13,7 @@ from collections.abc import Sequence
 from dataclasses import asdict, dataclass, replace
 from importlib.metadata import version
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from rich.console import Console
 
@@ -23,12 +24,15 @@ from reconcile.errors import ConfigError, OutputError
 from reconcile.io.render import terminal
 from reconcile.io.render.report import Report, ReportPart, ReportStats, build_report
 from reconcile.io.render.stats_view import view
-from reconcile.io.session import Inputs, run_manifest
+from reconcile.io.session import FeeInputs, Inputs, run_manifest
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.report import write_report
 from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, json_records
 from reconcile.notice import CAUTION
 from reconcile.timezones import tz_database_version, zone
+
+if TYPE_CHECKING:
+    from reconcile.core.fees.audit import FeeAudit
 
 STATS_FORMATS = ("table", "csv", "json")
 #: Width of the statistics table when it is written to a file rather than a terminal.
@@ -203,3 +207,31 @@ def _provenance(inputs: Inputs) -> list[str]:
         f"Made by reconcile {version('reconcile')} from {read}; time-zone database "
         f"{tz_database_version()}."
     ]
+
+
+def fee_part(audit: FeeAudit, inputs: FeeInputs) -> ReportPart:
+    """The fee audit as part of the report: its sections, tables and leakage facts."""
+    from reconcile.io.render.fees import fee_page
+
+    page = fee_page(audit, inputs.summaries(), str(inputs.schedule_path), ())
+    sections = [
+        replace(section, heading=f"Fees: {section.heading}", anchor=f"fees-{section.anchor}")
+        for section in page.sections
+    ]
+    tables = {f"fees_{name}": frame for name, frame in audit.tables().items()}
+    facts = [fact for fact in page.sections[0].facts if fact.label.startswith("Leakage")]
+    return ReportPart(sections, tables, facts)
+
+
+def fee_parts(
+    inputs: Inputs, schedule: Path | None, marks: Path | None, *, method: str
+) -> list[ReportPart]:
+    """The fee audit's part of the report when a schedule is given (none otherwise)."""
+    if schedule is None:
+        if marks is not None:
+            raise ConfigError("--marks: prices financing for the fee audit, which needs --schedule")
+        return []
+    from reconcile.io.session import audit_fee_inputs, fee_inputs_for
+
+    fee_inputs = fee_inputs_for(inputs, schedule, marks)
+    return [fee_part(audit_fee_inputs(fee_inputs, method=method), fee_inputs)]

@@ -232,15 +232,24 @@ def read_fee_inputs(
 
     rules = read_schedule(schedule)
     inputs = read_inputs(fills, financing, timezone=timezone, dedupe=dedupe)
+    return fee_inputs_for(inputs, schedule, marks, rules)
+
+
+def fee_inputs_for(
+    inputs: Inputs, schedule: Path, marks: Path | None, rules: Schedule | None = None
+) -> FeeInputs:
+    """The fee audit's inputs beside fills already read: the schedule and optional marks."""
+    from reconcile.io.readers.schedule import read_schedule
+
     priced = None
     if marks is not None:
-        priced = read_marks(marks, timezone=timezone)
+        priced = read_marks(marks, timezone=inputs.timezone)
         priced.attrs["read_summary"] = {
             "source": str(marks),
             "accepted": len(priced),
             "kind": "marks",
         }
-    return FeeInputs(inputs, rules, schedule, priced)
+    return FeeInputs(inputs, rules or read_schedule(schedule), schedule, priced)
 
 
 def audit_fee_inputs(inputs: FeeInputs, **options: Any) -> FeeAudit:

@@ -147,3 +147,16 @@ def test_many_instruments_show_the_best_and_worst_twelve() -> None:
     )
     labels = re.findall(r">(I\d\d)</text>", charts.pnl_by_instrument(summary))
     assert labels == [f"I{n:02d}" for n in [*range(39, 27, -1), *range(11, -1, -1)]]
+
+
+def test_trades_minutes_apart_get_a_date_axis_without_warnings() -> None:
+    # A day trader's morning: round trips closing minutes apart. matplotlib warned (an error
+    # here) when one tick cap applied to every date frequency.
+    rows = []
+    for n in range(4):
+        rows += [
+            (f"b{n}", "buy", 1, "10", f"2026-11-02T14:0{2 * n}:00Z"),
+            (f"s{n}", "sell", 1, "11", f"2026-11-02T14:0{2 * n + 1}:00Z"),
+        ]
+    statistics = reconcile.stats(reconcile.match(fills(rows)))
+    ET.fromstring(charts.cumulative_pnl(statistics.cumulative))

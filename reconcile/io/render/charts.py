@@ -22,7 +22,7 @@ from typing import Any, TypeVar
 import matplotlib
 import pandas as pd
 from matplotlib.axes import Axes
-from matplotlib.dates import AutoDateLocator, ConciseDateFormatter
+from matplotlib.dates import DAILY, MONTHLY, YEARLY, AutoDateLocator, ConciseDateFormatter
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 from matplotlib.typing import RcKeyType
@@ -333,7 +333,10 @@ def _money_ticks() -> FuncFormatter:
 
 
 def _date_axis(axes: Axes) -> None:
-    locator = AutoDateLocator(maxticks=8)  # type: ignore[no-untyped-call]
+    # A fixed maxticks for every frequency has no interval to offer when the data span minutes,
+    # and matplotlib warns; cap only the calendar frequencies.
+    caps = {YEARLY: 8, MONTHLY: 8, DAILY: 8}
+    locator = AutoDateLocator(maxticks=caps)  # type: ignore[no-untyped-call]
     axes.xaxis.set_major_locator(locator)
     concise = ConciseDateFormatter(locator, show_offset=False)  # type: ignore[no-untyped-call]
     axes.xaxis.set_major_formatter(concise)
