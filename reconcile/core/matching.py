@@ -25,6 +25,7 @@ def match(
     rounding: Rounding = "half-even",
     timezone: str | None = None,
     progress: Progress | None = None,
+    engine: schema.Engine = "auto",
 ) -> Book:
     """Match fills into closed lots, round trips, open lots and positions.
 
@@ -34,10 +35,17 @@ def match(
     the lot's basis until it closes) or ``at-fill`` (every commission is realized when paid).
     ``timezone`` places times that carry no UTC offset. ``progress(done, total)`` is called as
     (account, instrument) keys finish.
+
+    ``engine`` picks how: ``reference`` replays each key with the readable engine of
+    :mod:`reconcile.core.engine`; ``fast`` runs the integer kernel of :mod:`reconcile.fast`
+    (compiled when numba is installed), which gives identical tables; ``auto`` (the default)
+    takes the fast path when numba is installed and the reference engine otherwise. Either way a
+    key whose numbers do not fit the kernel's 64-bit integers is replayed by the reference engine.
     """
     check_choice("method", method, schema.METHODS)
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
+    check_choice("engine", engine, schema.ENGINES)
     fills = canonical_fills(fills, source=_label(fills, "fills"), timezone=timezone)
     if financing is not None:
         financing = canonical_financing(
@@ -45,8 +53,47 @@ def match(
         )
     if opening is not None:
         opening = canonical_opening(opening, source=_label(opening, "opening"), timezone=timezone)
+    if _use_fast(engine):
+        book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
+        if book is not None:
+            return book
     run = replay(fills, financing, opening, method, commission, progress)
     return build_book(run, method, rounding)
+
+
+def _use_fast(engine: str) -> bool:
+    if engine != "auto":
+        return engine == "fast"
+    from reconcile.fast._jit import numba_available
+
+    return numba_available()
+
+
+def _fast_book(
+    fills: pd.DataFrame,
+    financing: pd.DataFrame | None,
+    opening: pd.DataFrame | None,
+    method: str,
+    commission: str,
+    rounding: Rounding,
+    progress: Progress | None,
+) -> Book | None:
+    """The fast path's book, or None when the inputs hold something only the reference engine
+    reports (it then raises the same errors it always does)."""
+    from reconcile.fast._jit import numba_available
+    from reconcile.fast.engine import fast_book
+    from reconcile.fast.prepare import NeedsReference
+
+    try:
+        book = fast_book(
+            fills, financing, opening, method, commission, rounding, compiled=numba_available()
+        )
+    except NeedsReference:
+        return None
+    if progress is not None:
+        keys = len(book.positions)
+        progress(keys, keys)
+    return book
 
 
 def check_choice(option: str, value: str, choices: Sequence[str]) -> None:
