@@ -9,7 +9,7 @@ from __future__ import annotations
 import importlib.util
 import os
 from collections.abc import Callable
-from typing import Any, TypeVar
+from typing import Any, Literal, TypeVar
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -21,7 +21,12 @@ def numba_available() -> bool:
     return not _DISABLED and importlib.util.find_spec("numba") is not None
 
 
-def jit(function: F) -> F:
+def inline(function: F) -> F:
+    """:func:`jit` for a small helper that numba should inline into its callers."""
+    return jit(function, always_inline=True)
+
+
+def jit(function: F, always_inline: bool = False) -> F:
     """``numba.njit(cache=True)`` when numba is available, the function itself otherwise.
 
     The plain function stays reachable as ``.py_func`` either way, so tests can run both.
@@ -31,5 +36,6 @@ def jit(function: F) -> F:
         return function
     import numba
 
-    compiled: F = numba.njit(cache=True, nogil=True)(function)  # type: ignore[assignment]
+    mode: Literal["never", "always"] = "always" if always_inline else "never"
+    compiled: F = numba.njit(cache=True, nogil=True, inline=mode)(function)
     return compiled

@@ -15,11 +15,12 @@ from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
 from reconcile.core.frames import frame_from_arrow
 from reconcile.fast import kernel
+from reconcile.fast.finish import finish
 from reconcile.fast.prepare import Prepared, prepare
 from reconcile.fast.tables import KEY, KernelOutput, TableBuilder
 from reconcile.money import Rounding
 
-PIECE_COLUMNS, TRIP_COLUMNS, LOT_COLUMNS, KEY_COLUMNS = 12, 11, 9, 9
+PIECE_COLUMNS, TRIP_COLUMNS, LOT_COLUMNS, KEY_COLUMNS = 12, 12, 9, 9
 
 
 def fast_book(
@@ -34,7 +35,13 @@ def fast_book(
 ) -> Book:
     """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``."""
     prepared = prepare(fills, financing, opening, method)
-    out = run_kernel(prepared, method, convention, rounding, compiled=compiled)
+    out = run_kernel(prepared, method, convention, compiled=compiled)
+    average = method == "average"
+    derived, bad = finish(out, prepared, rounding == "half-up", average)
+    if bad.any():
+        prepared.key["status"][bad] = kernel.OVERFLOW
+        out = out.without(bad, prepared.sources["financing"].keys)
+        derived, _ = finish(out, prepared, rounding == "half-up", average)
     fallback = np.flatnonzero(prepared.key["status"] != kernel.OK)
     reference = None
     trips = out.keys[:, 8].copy()
@@ -44,8 +51,7 @@ def fast_book(
         )
         trips[fallback] = _trip_counts(reference, prepared, fallback)
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
-    builder = TableBuilder(prepared, out, offsets)
-    average = method == "average"
+    builder = TableBuilder(prepared, out, derived, offsets)
     good = np.flatnonzero(prepared.key["status"] == kernel.OK)
     tables = {
         "closed_lots": builder.closed_lots(average),
@@ -61,7 +67,7 @@ def fast_book(
 
 
 def run_kernel(
-    prepared: Prepared, method: str, convention: str, rounding: Rounding, *, compiled: bool = True
+    prepared: Prepared, method: str, convention: str, *, compiled: bool = True
 ) -> KernelOutput:
     fills, financing, opening, key = (
         prepared.fills,
@@ -85,7 +91,6 @@ def run_kernel(
     replay(
         kernel.METHOD_CODES[method],
         convention == "at-close",
-        rounding == "half-up",
         key["fills_offsets"],
         key["financing_offsets"],
         key["opening_offsets"],

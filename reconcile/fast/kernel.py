@@ -20,9 +20,10 @@ from typing import Any
 
 import numpy as np
 
-from reconcile.fast._jit import jit
+from reconcile.fast._jit import inline, jit
 
 LIMIT = 9223372036854775807  # 2**63 - 1; values are kept within +-LIMIT, never at -2**63
+SMALL = 3037000499  # floor(sqrt(LIMIT)): the product of two smaller magnitudes always fits
 POW10 = np.array([10**k for k in range(19)], dtype=np.int64)
 
 FIFO, LIFO, HIFO, AVERAGE = 0, 1, 2, 3
@@ -34,8 +35,10 @@ AVERAGE_PLACES = 10
 OK, OVERFLOW = 0, 1
 
 
-@jit
+@inline
 def _mul(a: Any, b: Any, err: Any) -> Any:
+    if -SMALL <= a <= SMALL and -SMALL <= b <= SMALL:
+        return a * b
     if a == 0 or b == 0:
         return 0
     if abs(a) > LIMIT // abs(b):
@@ -44,7 +47,7 @@ def _mul(a: Any, b: Any, err: Any) -> Any:
     return a * b
 
 
-@jit
+@inline
 def _add(a: Any, b: Any, err: Any) -> Any:
     if (b > 0 and a > LIMIT - b) or (b < 0 and a < -LIMIT - b):
         err[0] = 1
@@ -52,7 +55,7 @@ def _add(a: Any, b: Any, err: Any) -> Any:
     return a + b
 
 
-@jit
+@inline
 def _pow10(places: Any, err: Any) -> Any:
     if places < 0 or places > 18:
         err[0] = 1
@@ -60,7 +63,7 @@ def _pow10(places: Any, err: Any) -> Any:
     return POW10[places]
 
 
-@jit
+@inline
 def _places(value: Any, scale: Any) -> Any:
     """Significant decimal places of ``value / 10**scale`` (money.significant_places)."""
     places = scale
@@ -70,7 +73,15 @@ def _places(value: Any, scale: Any) -> Any:
     return places
 
 
-@jit
+@inline
+def _charge_places(amount: Any, scale: Any, minor: Any, err: Any) -> Any:
+    """max(minor unit, the amount's significant places), as money.charge_places."""
+    if amount % _pow10(scale - minor, err) == 0:
+        return minor
+    return max(minor, _places(amount, scale))
+
+
+@inline
 def _round_div(num: Any, den: Any, half_up: Any) -> Any:
     """``num / den`` (den > 0) rounded to an integer, half-even or half away from zero."""
     q = num // den
@@ -78,42 +89,6 @@ def _round_div(num: Any, den: Any, half_up: Any) -> Any:
     if r > den - r or (r == den - r and ((q >= 0) if half_up else (q % 2 == 1))):
         q += 1
     return q
-
-
-@jit
-def _money(value: Any, scale: Any, minor: Any, half_up: Any, err: Any) -> Any:
-    """An amount at ``scale`` rounded to the currency's minor unit (money.round_money)."""
-    if scale <= minor:
-        return _mul(value, _pow10(minor - scale, err), err)
-    return _round_div(value, _pow10(scale - minor, err), half_up)
-
-
-@jit
-def _ratio(num: Any, num_scale: Any, den: Any, den_scale: Any, places: Any, err: Any) -> Any:
-    """``(num / 10**num_scale) / (den / 10**den_scale)`` rounded half-even to ``places``, as an
-    integer at ``places`` (money.divide), by long division so no wide product is formed."""
-    if den <= 0:
-        err[0] = 1
-        return 0
-    shift = den_scale + places - num_scale
-    a = abs(num)
-    if shift < 0:
-        den = _mul(den, _pow10(-shift, err), err)
-        if den == 0:
-            return 0
-        shift = 0
-    if den > LIMIT // 10:
-        err[0] = 1
-        return 0
-    whole = a // den
-    rest = a - whole * den
-    for _ in range(shift):
-        rest *= 10
-        whole = _add(_mul(whole, 10, err), rest // den, err)
-        rest -= (rest // den) * den
-    if rest > den - rest or (rest == den - rest and whole % 2 == 1):
-        whole = _add(whole, 1, err)
-    return -whole if num < 0 else whole
 
 
 @jit
@@ -133,7 +108,9 @@ def _prorata(balance: Any, part: Any, whole: Any, scale: Any, places: Any, err: 
 @jit
 def _charge_prorata(balance: Any, part: Any, whole: Any, scale: Any, minor: Any, err: Any) -> Any:
     """The share of a lot's unrealized charge, at the charge's own places (money.charge_places)."""
-    places = max(minor, _places(balance, scale))
+    if part == whole or balance == 0:
+        return balance
+    places = _charge_places(balance, scale, minor, err)
     return _prorata(balance, part, whole, scale, places, err)
 
 
@@ -145,7 +122,12 @@ def _allocate(
 
     Units left after flooring go to the largest remainders; equal remainders to the earlier weight.
     """
-    places = max(minor, _places(amount, scale))
+    if count == 1 or amount == 0:
+        out[0] = amount
+        for i in range(1, count):
+            out[i] = 0
+        return
+    places = _charge_places(amount, scale, minor, err)
     factor = _pow10(scale - places, err)
     units = abs(amount) // factor
     sign = -1 if amount < 0 else 1
@@ -183,7 +165,7 @@ def _allocate(
         out[i] = _mul(sign * out[i], factor, err)
 
 
-@jit
+@inline
 def _hifo_before(price: Any, seq: Any, a: Any, b: Any, direction: Any) -> Any:
     """Whether lot ``a`` closes before lot ``b`` under hifo: the least gain first, ties oldest."""
     pa_, pb = direction * price[a], direction * price[b]
@@ -225,7 +207,6 @@ def _heap_pop(heap: Any, size: Any, price: Any, seq: Any, direction: Any) -> Any
 def replay_keys(
     method: Any,
     at_close: Any,
-    half_up: Any,
     k_fill: Any,
     k_fin: Any,
     k_open: Any,
@@ -409,9 +390,7 @@ def replay_keys(
                 s, take, close_comm = closing[n], takes[n], shares[n]
                 whole = lot_qty[s]
                 if method == AVERAGE:
-                    open_price = _ratio(
-                        lot_cost[s], ws, _mul(whole, mult, err), qs + ms, AVERAGE_PLACES, err
-                    )
+                    open_price = lot_cost[s]  # the pool's average is cost / (whole x multiplier)
                     relieved = _prorata(lot_cost[s], take, whole, ws, minor, err)
                 else:
                     open_price = lot_price[s]
@@ -427,7 +406,6 @@ def replay_keys(
                 fin = _charge_prorata(lot_fin[s], take, whole, ws, minor, err)
                 reported_comm = _add(close_comm, open_comm, err) if at_close else close_comm
                 reported_fin = fin if at_close else 0
-                net = _add(_add(gross, -reported_comm, err), reported_fin, err)
                 row = p_int[n_p]
                 row[0] = k
                 row[1] = lot_src[s]
@@ -435,10 +413,9 @@ def replay_keys(
                 row[3] = take
                 row[4] = open_price
                 row[5] = gross
-                row[6] = _money(gross, ws, minor, half_up, err)
+                row[6] = whole
                 row[7] = reported_comm
                 row[8] = reported_fin
-                row[9] = _money(net, ws, minor, half_up, err)
                 row[10] = trips_local
                 row[11] = direction
                 p_time[n_p, 0] = lot_time[s]
@@ -463,15 +440,15 @@ def replay_keys(
                 row[0] = k
                 row[1] = t_dir
                 row[2] = t_maxq
-                row[3] = _ratio(t_entry_v, qs + ps, t_entry_q, qs, AVERAGE_PLACES, err)
-                row[4] = _ratio(t_exit_v, qs + ps, t_exit_q, qs, AVERAGE_PLACES, err)
+                row[3] = t_entry_v
+                row[4] = t_exit_v
                 row[5] = t_fills
-                row[6] = _money(t_gross, ws, minor, half_up, err)
-                row[7] = _money(t_comm, ws, minor, half_up, err)
-                row[8] = _money(t_fin, ws, minor, half_up, err)
-                net = _add(_add(t_gross, -t_comm, err), t_fin, err)
-                row[9] = _money(net, ws, minor, half_up, err)
+                row[6] = t_gross
+                row[7] = t_comm
+                row[8] = t_fin
+                row[9] = t_entry_q
                 row[10] = trips_local
+                row[11] = t_exit_q
                 t_time[n_t, 0] = t_open_time
                 t_time[n_t, 1] = f_time[i]
                 n_t += 1
@@ -527,12 +504,7 @@ def replay_keys(
             row[0] = k
             row[1] = lot_src[s]
             row[2] = lot_qty[s]
-            if method == AVERAGE:
-                row[3] = _ratio(
-                    lot_cost[s], ws, _mul(lot_qty[s], mult, err), qs + ms, AVERAGE_PLACES, err
-                )
-            else:
-                row[3] = lot_price[s]
+            row[3] = lot_cost[s] if method == AVERAGE else lot_price[s]
             row[4] = lot_comm[s] if at_close else 0
             row[5] = lot_fin[s] if at_close else 0
             row[6] = lot_cost[s]
@@ -547,16 +519,11 @@ def replay_keys(
             commission_total, financing_total = paid, booked
         out = k_out[k]
         out[0] = position * direction
-        out[1] = 0
-        out[2] = 0
-        if position > 0:
-            out[1] = _ratio(cost_open, ws, _mul(position, mult, err), qs + ms, AVERAGE_PLACES, err)
-            out[2] = 1
-        out[3] = _money(sum_gross, ws, minor, half_up, err)
-        out[4] = _money(commission_total, ws, minor, half_up, err)
-        out[5] = _money(financing_total, ws, minor, half_up, err)
-        net = _add(_add(sum_gross, -commission_total, err), financing_total, err)
-        out[6] = _money(net, ws, minor, half_up, err)
+        out[1] = cost_open
+        out[2] = position
+        out[3] = sum_gross
+        out[4] = commission_total
+        out[5] = financing_total
         out[7] = lots_open
         out[8] = trips_local + (1 if trip_open else 0)
         if err[0] != 0:

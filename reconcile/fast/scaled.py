@@ -140,3 +140,55 @@ def ints_of(values: pa.Array | pa.ChunkedArray) -> np.ndarray:
     if pa.types.is_timestamp(values.type) or pa.types.is_duration(values.type):
         values = values.cast(pa.int64())
     return np.asarray(pc.fill_null(values, 0).to_numpy(zero_copy_only=False), dtype=np.int64)
+
+
+def checked_add(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Elementwise a + b with the rows that would leave the int64 range flagged (and zeroed)."""
+    bad = ((b > 0) & (a > LIMIT - b)) | ((b < 0) & (a < -LIMIT - b))
+    return np.where(bad, 0, a + np.where(bad, 0, b)), bad
+
+
+def round_to_places(
+    values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
+    """Values at ``scale`` rounded to ``places`` (half-even, or half away from zero), as
+    integers at ``places``: money.round_to, elementwise."""
+    shift = np.asarray(scale - places, np.int64)
+    up_factor = POW10[np.clip(-shift, 0, 18)]
+    raised, bad = checked_mul(values, up_factor)
+    den = POW10[np.clip(shift, 0, 18)]
+    q = values // den
+    r = values - q * den
+    tie_up = (q >= 0) if half_up else (q % 2 == 1)
+    q = q + ((r > den - r) | ((r == den - r) & tie_up))
+    out = np.where(shift > 0, q, raised)
+    return out, bad | (np.abs(shift) > 18)
+
+
+def ratio(
+    num: np.ndarray,
+    num_scale: np.ndarray,
+    den: np.ndarray,
+    den_scale: np.ndarray,
+    places: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """``(num / 10**num_scale) / (den / 10**den_scale)`` rounded half-even to ``places``, as
+    integers at ``places`` (money.divide), by long division so no wide product is formed."""
+    num = np.asarray(num, np.int64)
+    shift = np.asarray(den_scale + places - num_scale, np.int64) + np.zeros(len(num), np.int64)
+    den, bad = checked_mul(np.asarray(den, np.int64), POW10[np.clip(-shift, 0, 18)])
+    bad |= (den <= 0) | (den > LIMIT // 10) | (shift < -18)
+    den = np.where(bad, 1, den)
+    a = np.abs(num)
+    whole, rest = a // den, a % den
+    for step in range(int(shift.max()) if len(shift) else 0):
+        active = step < shift
+        rest = rest * 10
+        digit = rest // den
+        grown, over = checked_mul(whole, np.full(len(whole), 10, np.int64))
+        grown, over2 = checked_add(grown, digit)
+        bad |= active & (over | over2)
+        whole = np.where(active, grown, whole)
+        rest = np.where(active, rest - digit * den, rest // 10)
+    whole = whole + ((rest > den - rest) | ((rest == den - rest) & (whole % 2 == 1)))
+    return np.where(num < 0, -whole, whole), bad

@@ -34,13 +34,35 @@ class KernelOutput:
     keys: np.ndarray
     unattributed: np.ndarray
 
+    def without(self, dropped: np.ndarray, financing_keys: np.ndarray) -> KernelOutput:
+        """The output less every row of the keys marked in ``dropped``."""
+        p, t, lots = (~dropped[a[:, 0]] for a in (self.pieces, self.trips, self.lots))
+        u = ~dropped[financing_keys[self.unattributed]]
+        return KernelOutput(
+            self.pieces[p],
+            self.piece_times[p],
+            self.trips[t],
+            self.trip_times[t],
+            self.lots[lots],
+            self.lot_times[lots],
+            self.keys,
+            self.unattributed[u],
+        )
+
 
 class TableBuilder:
     """Shapes kernel output into the five tables of :mod:`reconcile.schema`."""
 
-    def __init__(self, prepared: Prepared, out: KernelOutput, trip_offsets: np.ndarray) -> None:
+    def __init__(
+        self,
+        prepared: Prepared,
+        out: KernelOutput,
+        derived: dict[str, np.ndarray],
+        trip_offsets: np.ndarray,
+    ) -> None:
         self.p = prepared
         self.out = out
+        self.d = derived
         self.trip_offsets = trip_offsets
         fills = prepared.sources["fills"].columns
         opening = prepared.sources["opening"].columns
@@ -76,12 +98,12 @@ class TableBuilder:
             "open_time": _times(times[:, 0]),
             "close_time": _times(times[:, 1]),
             "quantity": to_decimal(rows[:, 3], self.p.key["qs"][keys]),
-            "open_price": self._open_price(rows[:, 4], keys, average),
+            "open_price": self._open_price(self.d["piece_open_price"], keys, average),
             "close_price": self.fill_prices.take(pa.array(rows[:, 2])),
-            "gross_pnl": to_decimal(rows[:, 6], minor),
+            "gross_pnl": to_decimal(self.d["piece_gross"], minor),
             "commission": to_decimal(rows[:, 7], ws),
             "financing": to_decimal(rows[:, 8], ws),
-            "net_pnl": to_decimal(rows[:, 9], minor),
+            "net_pnl": to_decimal(self.d["piece_net"], minor),
             "multiplier": self._multiplier(keys),
             "gross_pnl_unrounded": to_decimal(rows[:, 5], ws),
             "trip_id": self._trip_ids(keys, rows[:, 10]),
@@ -99,13 +121,13 @@ class TableBuilder:
             "open_time": _times(times[:, 0]),
             "close_time": _times(times[:, 1]),
             "max_quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
-            "entry_price": to_decimal(rows[:, 3], kernel.AVERAGE_PLACES),
-            "exit_price": to_decimal(rows[:, 4], kernel.AVERAGE_PLACES),
+            "entry_price": to_decimal(self.d["trip_entry"], kernel.AVERAGE_PLACES),
+            "exit_price": to_decimal(self.d["trip_exit"], kernel.AVERAGE_PLACES),
             "fills": pa.array(rows[:, 5], pa.int64()),
-            "gross_pnl": to_decimal(rows[:, 6], minor),
-            "commission": to_decimal(rows[:, 7], minor),
-            "financing": to_decimal(rows[:, 8], minor),
-            "net_pnl": to_decimal(rows[:, 9], minor),
+            "gross_pnl": to_decimal(self.d["trip_gross"], minor),
+            "commission": to_decimal(self.d["trip_commission"], minor),
+            "financing": to_decimal(self.d["trip_financing"], minor),
+            "net_pnl": to_decimal(self.d["trip_net"], minor),
             "holding_time": pa.array(times[:, 1] - times[:, 0], pa.int64()).view(pa.duration("ns")),
         }
         return _table(columns, schema.ROUND_TRIPS, keys)
@@ -120,7 +142,7 @@ class TableBuilder:
             "open_fill_id": self.lot_ids.take(pa.array(rows[:, 1])),
             "open_time": _times(self.out.lot_times),
             "quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
-            "open_price": self._open_price(rows[:, 3], keys, average),
+            "open_price": self._open_price(self.d["lot_open_price"], keys, average),
             "commission": to_decimal(rows[:, 4], ws),
             "financing": to_decimal(rows[:, 5], ws),
             "multiplier": self._multiplier(keys),
@@ -136,11 +158,13 @@ class TableBuilder:
             **self._key_columns(keys),
             "multiplier": self._multiplier(keys),
             "quantity": to_decimal(rows[:, 0], self.p.key["qs"][keys]),
-            "average_price": to_decimal(rows[:, 1], kernel.AVERAGE_PLACES, rows[:, 2] == 1),
-            "realized_gross": to_decimal(rows[:, 3], minor),
-            "commission": to_decimal(rows[:, 4], minor),
-            "financing": to_decimal(rows[:, 5], minor),
-            "realized_net": to_decimal(rows[:, 6], minor),
+            "average_price": to_decimal(
+                self.d["key_average"][keys], kernel.AVERAGE_PLACES, rows[:, 2] > 0
+            ),
+            "realized_gross": to_decimal(self.d["key_gross"][keys], minor),
+            "commission": to_decimal(self.d["key_commission"][keys], minor),
+            "financing": to_decimal(self.d["key_financing"][keys], minor),
+            "realized_net": to_decimal(self.d["key_net"][keys], minor),
             "open_lots": pa.array(rows[:, 7], pa.int64()),
         }
         return _table(columns, schema.POSITIONS, keys)
