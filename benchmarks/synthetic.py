@@ -31,50 +31,80 @@ CLASSES = (
 )
 ACCOUNTS = 40
 INSTRUMENTS = 4000
-START_NS = 1_793_955_600_000_000_000  # 2026-11-02T09:00:00Z
+BOOK_SIZE = 300
+START_NS = 1_793_610_000_000_000_000  # 2026-11-02T09:00:00Z
 
 
 def synthetic_table(count: int, seed: int = 20261102) -> pa.Table:
     rng = np.random.default_rng(seed)
     classes = _instrument_classes(rng)
-    orders = count // 2 + 10
-    burst = rng.integers(1, 6, orders)  # partial fills per order
-    order_of_fill = np.repeat(np.arange(orders), burst)[:count]
-    account = rng.integers(0, ACCOUNTS, orders)[order_of_fill]
-    instrument = _popular(rng, orders)[order_of_fill]
-    side = rng.integers(0, 2, orders)[order_of_fill]
+    orders = _orders(rng, count)
+    burst = rng.integers(1, 6, len(orders["key"]))  # partial fills per order
+    order_of_fill = np.repeat(np.arange(len(burst)), burst)
+    drawn = len(order_of_fill)
+    first_of_order = np.r_[True, order_of_fill[1:] != order_of_fill[:-1]]
+    account = orders["key"][order_of_fill] // INSTRUMENTS
+    instrument = orders["key"][order_of_fill] % INSTRUMENTS
     cls = classes["class"][instrument]
     q_places = np.array([c[2] for c in CLASSES])[cls]
     p_places = np.array([c[3] for c in CLASSES])[cls]
-    units = rng.integers(1, 40, count) * np.array([100, 10_000, 1, 1, 100, 10])[cls]
-    q_units = units * 10**q_places // np.where(cls == 2, rng.integers(1, 1000, count), 1)
-    q_units = np.maximum(q_units, 1)
+    lot = classes["lot"][instrument]
+    lots = np.abs(orders["lots"])[order_of_fill]
+    parts = burst[order_of_fill]
+    # Each order's quantity split over its partial fills; the first fill takes the remainder.
+    share = lot * lots // parts
+    q_units = np.where(first_of_order, lot * lots - share * (parts - 1), share)
+    keep = q_units > 0
     spread = np.maximum(classes["price"][instrument] // 200, 1)
-    p_units = classes["price"][instrument] + rng.integers(-1, 2, count) * rng.integers(0, spread)
-    steps = rng.integers(0, 2_000_000_000, orders).cumsum()  # nanoseconds between orders
-    time = START_NS + steps[order_of_fill] + np.arange(count) % 7 * 1_000_000
+    p_units = classes["price"][instrument] + rng.integers(-1, 2, drawn) * rng.integers(0, spread)
+    # Orders at least 10 ms apart, their partial fills a millisecond apart: a time-ordered feed.
+    steps = (10_000_000 + rng.integers(0, 200_000_000, len(burst))).cumsum()
+    in_order = np.arange(drawn) - (np.cumsum(burst) - burst)[order_of_fill]
+    time = START_NS + steps[order_of_fill] + in_order * 1_000_000
     c_places = np.array([2, 2, 2, 2, 0, 3])[cls]
-    commission = np.where(rng.random(count) < 0.2, 0, rng.integers(1, 900, count))
+    commission = np.where(rng.random(drawn) < 0.2, 0, rng.integers(1, 900, drawn))
+    side = (orders["lots"][order_of_fill] < 0).astype(np.int64)
+    rows = np.flatnonzero(keep)[:count]
     return pa.table(
         {
             "fill_id": pc.binary_join_element_wise(
-                "LK", pa.array(np.arange(count)).cast(pa.string()), ""
+                "LK", pa.array(np.arange(len(rows))).cast(pa.string()), ""
             ),
-            "account": pc.binary_join_element_wise("ACC", pa.array(account).cast(pa.string()), ""),
+            "account": pc.binary_join_element_wise(
+                "ACC", pa.array(account[rows]).cast(pa.string()), ""
+            ),
             "instrument": pc.binary_join_element_wise(
-                pa.array(np.array([c[0][:2].upper() for c in CLASSES])[cls]),
-                pa.array(instrument).cast(pa.string()),
+                pa.array(np.array([c[0][:2].upper() for c in CLASSES])[cls[rows]]),
+                pa.array(instrument[rows]).cast(pa.string()),
                 "",
             ),
-            "side": pa.array(np.array(["buy", "sell"])[side]),
-            "quantity": _decimal_text(q_units, q_places),
-            "price": _decimal_text(p_units, p_places),
-            "time": _iso(time),
-            "commission": _decimal_text(commission, c_places),
-            "currency": pa.array(classes["currency"][instrument]),
-            "multiplier": pa.array(np.array([c[5] for c in CLASSES])[cls]),
+            "side": pa.array(np.array(["buy", "sell"])[side[rows]]),
+            "quantity": _decimal_text(q_units[rows], q_places[rows]),
+            "price": _decimal_text(p_units[rows], p_places[rows]),
+            "time": _iso(time[rows]),
+            "commission": _decimal_text(commission[rows], c_places[rows]),
+            "currency": pa.array(classes["currency"][instrument[rows]]),
+            "multiplier": pa.array(np.array([c[5] for c in CLASSES])[cls[rows]]),
         }
     )
+
+
+def _orders(rng: np.random.Generator, count: int) -> dict[str, np.ndarray]:
+    """Orders per key that move its position to a random target: from flat they open, toward zero
+    they reduce, through zero they flip; a target of zero ends a round trip."""
+    drawn = count // 2 + 1000  # about 1.5 fills per requested fill, cut back to count later
+    account = rng.integers(0, ACCOUNTS, drawn)
+    book = _popular(rng, drawn, BOOK_SIZE)  # each account trades its own few hundred names
+    key = account * INSTRUMENTS + (account * 97 + book) % INSTRUMENTS
+    target = np.where(rng.random(drawn) < 0.3, 0, rng.integers(-4, 5, drawn))
+    order = np.argsort(key, kind="stable")
+    sorted_key, sorted_target = key[order], target[order]
+    previous = np.r_[0, sorted_target[:-1]]
+    previous[np.r_[True, sorted_key[1:] != sorted_key[:-1]]] = 0
+    lots = np.empty(drawn, np.int64)
+    lots[order] = sorted_target - previous
+    moving = lots != 0
+    return {"key": key[moving], "lots": lots[moving]}
 
 
 def _instrument_classes(rng: np.random.Generator) -> dict[str, np.ndarray]:
@@ -83,17 +113,18 @@ def _instrument_classes(rng: np.random.Generator) -> dict[str, np.ndarray]:
     low = np.array([c[4][0] for c in CLASSES])[cls]
     high = np.array([c[4][1] for c in CLASSES])[cls]
     price = rng.integers(low, high)
+    lot = np.array([100, 10_000, 1, 1, 100, 10])[cls] * np.where(cls == 2, 1234, 1)
     currency = np.array(
         [CLASSES[c][6][rng.integers(0, len(CLASSES[c][6]))] for c in cls], dtype=object
     )
-    return {"class": cls, "price": price, "currency": currency}
+    return {"class": cls, "price": price, "currency": currency, "lot": lot}
 
 
-def _popular(rng: np.random.Generator, count: int) -> np.ndarray:
-    """Instrument per order: a few are traded far more often than most (a rough power law)."""
-    weights = 1.0 / np.arange(1, INSTRUMENTS + 1) ** 0.8  # benchmark data only, not money
-    ranked = rng.permutation(INSTRUMENTS)
-    return ranked[rng.choice(INSTRUMENTS, count, p=weights / weights.sum())]
+def _popular(rng: np.random.Generator, count: int, size: int) -> np.ndarray:
+    """One of ``size`` names per order: a few far more often than most (a rough power law)."""
+    weights = 1.0 / np.arange(1, size + 1) ** 0.8  # benchmark data only, not money
+    ranked = rng.permutation(size)
+    return ranked[rng.choice(size, count, p=weights / weights.sum())]
 
 
 def _decimal_text(units: np.ndarray, places: np.ndarray) -> pa.Array:

@@ -10,6 +10,7 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    Engine,
     InputFile,
     Method,
     OutDir,
@@ -41,6 +42,7 @@ def match_command(
     rounding: Rounding = "half-even",
     timezone: Timezone = None,
     dedupe: Dedupe = False,
+    engine: Engine = "auto",
     out: OutDir = Path("reconcile-out"),
     fmt: Annotated[
         str,
@@ -51,6 +53,8 @@ def match_command(
     from reconcile.io import session
 
     inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
-    book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
+    book = session.match_inputs(
+        inputs, method=method, commission=commission, rounding=rounding, engine=engine
+    )
     written = session.write_book(book, inputs, out, fmt)
     session.show_match(book, inputs, written)

@@ -128,7 +128,7 @@ class _Checker:
         ):
             values = _arrow(series)
             blank = pc.is_null(values)
-            shown = values.cast(pa.string())
+            shown = values  # shown as text only for the rows a problem names
         else:
             shown = pc.utf8_trim_whitespace(self.raw_text(column))
             blank = pc.fill_null(pc.equal(shown, ""), True)

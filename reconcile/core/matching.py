@@ -53,6 +53,36 @@ def match(
         )
     if opening is not None:
         opening = canonical_opening(opening, source=_label(opening, "opening"), timezone=timezone)
+    return match_canonical(
+        fills,
+        financing,
+        opening=opening,
+        method=method,
+        commission=commission,
+        rounding=rounding,
+        progress=progress,
+        engine=engine,
+    )
+
+
+@exact_arithmetic
+def match_canonical(
+    fills: pd.DataFrame,
+    financing: pd.DataFrame | None = None,
+    *,
+    opening: pd.DataFrame | None = None,
+    method: schema.Method = "fifo",
+    commission: schema.CommissionConvention = "at-close",
+    rounding: Rounding = "half-even",
+    progress: Progress | None = None,
+    engine: schema.Engine = "auto",
+) -> Book:
+    """:func:`match` for inputs that are already canonical (what the readers return), so a
+    command that has just read and validated its files does not validate them twice."""
+    check_choice("method", method, schema.METHODS)
+    check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
+    check_choice("rounding", rounding, tuple(ROUNDING_MODES))
+    check_choice("engine", engine, schema.ENGINES)
     if _use_fast(engine):
         book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
         if book is not None:

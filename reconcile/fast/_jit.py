@@ -37,5 +37,5 @@ def jit(function: F, always_inline: bool = False) -> F:
     import numba
 
     mode: Literal["never", "always"] = "always" if always_inline else "never"
-    compiled: F = numba.njit(cache=True, nogil=True, inline=mode)(function)
+    compiled: F = numba.njit(cache=True, nogil=True, inline=mode)(function)  # type: ignore[assignment]
     return compiled

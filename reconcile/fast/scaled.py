@@ -101,9 +101,13 @@ def to_decimal(
     present_scales = row_scales if valid is None else row_scales[valid]
     int_digits = int((digits(present) - present_scales).max()) if len(present) else 1
     kind = _decimal_type(max(int_digits, 1) + scale, scale)
-    distinct = np.unique(row_scales)
-    if len(distinct) <= 1:
+    lowest = int(row_scales.min()) if len(values) else scale
+    if lowest == scale:
         return _from_ints(values, scale, valid).cast(kind)
+    raised, bad = checked_mul(values, POW10[np.minimum(scale - row_scales, 18)])
+    if not bad.any() and scale - lowest <= 18:
+        return _from_ints(raised, scale, valid).cast(kind)
+    distinct = np.unique(row_scales)
     order = np.argsort(row_scales, kind="stable")
     parts = []
     for s in distinct:

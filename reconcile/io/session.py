@@ -14,7 +14,7 @@ from typing import Any
 import pandas as pd
 
 from reconcile.core.book import Book
-from reconcile.core.matching import match
+from reconcile.core.matching import match_canonical
 from reconcile.io.readers import read_fills, read_financing, read_opening
 from reconcile.io.render import terminal
 from reconcile.io.writers.tables import write_tables
@@ -71,7 +71,7 @@ def _opening(path: Path, timezone: str | None) -> pd.DataFrame:
 
 def match_inputs(inputs: Inputs, **options: Any) -> Book:
     with terminal.progress_bar("matching") as progress:
-        return match(
+        return match_canonical(
             inputs.fills, inputs.financing, opening=inputs.opening, progress=progress, **options
         )
 

@@ -159,7 +159,7 @@ def test_written_csv_files_are_byte_identical(
             events,
             method=method,  # type: ignore[arg-type]
             commission=convention,  # type: ignore[arg-type]
-            engine=engine,  # type: ignore[arg-type]
+            engine=engine,
         )
         for engine in ("reference", "fast")
     }

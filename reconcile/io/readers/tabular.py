@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import io
+from collections.abc import Sequence
 from pathlib import Path
 
 import numpy as np
@@ -24,6 +25,7 @@ from reconcile.errors import (
     SourceNotFoundError,
     ValidationError,
 )
+from reconcile.io.readers.typed_csv import read_decimal_csv
 from reconcile.schema import SOURCE_ROW
 
 #: Files up to this size are re-read to number rows by line when records span lines.
@@ -49,14 +51,20 @@ def detect_format(path: Path, forced: str | None = None) -> str:
     return fmt
 
 
-def read_table(path: Path | str, forced_format: str | None = None) -> pd.DataFrame:
-    """The file's rows as a DataFrame of raw values (CSV: all text), header row 1."""
+def read_table(
+    path: Path | str, forced_format: str | None = None, decimals: Sequence[str] = ()
+) -> pd.DataFrame:
+    """The file's rows as a DataFrame of raw values (CSV: all text), header row 1.
+
+    CSV columns named in ``decimals`` may come back as exact Arrow decimals when every cell of
+    them parses cleanly (a shortcut for large files); otherwise they are text like the rest.
+    """
     path = Path(path)
     _check_exists(path)
     fmt = detect_format(path, forced_format)
     if fmt == "parquet":
         return _read_parquet(path)
-    return _read_csv(path)
+    return _read_csv(path, decimals)
 
 
 def _check_exists(path: Path) -> None:
@@ -70,8 +78,12 @@ def _check_exists(path: Path) -> None:
         )
 
 
-def _read_csv(path: Path) -> pd.DataFrame:
+def _read_csv(path: Path, decimals: Sequence[str] = ()) -> pd.DataFrame:
     header = _csv_header(path)
+    typed = read_decimal_csv(path, header, decimals) if decimals else None
+    if typed is not None:
+        typed[SOURCE_ROW] = _record_lines(path, len(typed))
+        return typed
     types = {name: pa.string() for name in header}
     try:
         table = pa_csv.read_csv(
