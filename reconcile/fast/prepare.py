@@ -227,7 +227,17 @@ class _Scales:
         out = np.zeros(self.key_count, np.int64) if floor is None else floor.copy()
         for source, values in parts:
             if len(values):
-                np.maximum.at(out, self.keys[source], values)
+                np.maximum(out, _segment_max(values, self.keys[source], self.key_count), out=out)
+        return out
+
+    def key_places(self, parts: list[tuple[str, tuple[np.ndarray, int]]]) -> Any:
+        """Per key, the most places any of its values needs: 10**d divides every value of a key
+        exactly when it divides their greatest common divisor, so one gcd per key tells."""
+        out = np.zeros(self.key_count, np.int64)
+        for source, (values, scale) in parts:
+            if len(values):
+                divisor = _segment_gcd(values, self.keys[source], self.key_count)
+                np.maximum(out, significant_places(divisor, scale), out=out)
         return out
 
     def at(self, source: str, ints: np.ndarray, scale: int, target: np.ndarray) -> np.ndarray:
@@ -247,32 +257,19 @@ class _Scales:
         for name in ("quantity", "open_price", "commission", "financing", "multiplier"):
             o[name] = self.column("opening", name) if has["opening"] else (_none(), 0)
         o_basis = self.column("opening", "cost_basis") if has["opening"] else (_none(), 0)
-        qs = self.key_max(
+        qs = self.key_places([("fills", (f_qty, fq_s)), ("opening", o["quantity"])])
+        ps = self.key_places([("fills", (f_price, fp_s)), ("opening", o["open_price"])])
+        ms = self.key_places([("fills", (f_mult, fm_s)), ("opening", o["multiplier"])])
+        charges = self.key_places(
             [
-                ("fills", significant_places(f_qty, fq_s)),
-                ("opening", significant_places(*o["quantity"])),
+                ("fills", (f_comm, fc_s)),
+                ("financing", (e_amt, e_s)),
+                ("opening", o["commission"]),
+                ("opening", o["financing"]),
+                ("opening", o_basis),
             ]
         )
-        ps = self.key_max(
-            [
-                ("fills", significant_places(f_price, fp_s)),
-                ("opening", significant_places(*o["open_price"])),
-            ]
-        )
-        ms = self.key_max(
-            [
-                ("fills", significant_places(f_mult, fm_s)),
-                ("opening", significant_places(*o["multiplier"])),
-            ]
-        )
-        charges = [
-            ("fills", significant_places(f_comm, fc_s)),
-            ("financing", significant_places(e_amt, e_s)),
-            ("opening", significant_places(*o["commission"])),
-            ("opening", significant_places(*o["financing"])),
-            ("opening", significant_places(*o_basis)),
-        ]
-        ws = self.key_max(charges, np.maximum(self.minor, qs + ps + ms))
+        ws = np.maximum(charges, np.maximum(self.minor, qs + ps + ms))
         mult = self._multipliers(f_mult, fm_s, o["multiplier"], ms)
         fills = self._fills(f_qty, fq_s, f_price, fp_s, f_comm, fc_s, qs, ps, ws)
         opening = self._opening(o, o_basis, qs, ps, ms, ws, mult, method)
@@ -422,6 +419,28 @@ class _Scales:
         out, bad = checked_mul(values, POW10[np.clip(shift, 0, 18)])
         self.flag(keys[bad | (shift > 18)])
         return out
+
+
+def _segments(keys: np.ndarray, key_count: int) -> tuple[np.ndarray, np.ndarray]:
+    """Start of each non-empty key's run in ``keys`` (sorted), and those keys."""
+    counts = np.bincount(keys, minlength=key_count)
+    present = np.flatnonzero(counts)
+    starts = (np.cumsum(counts) - counts)[present]
+    return starts, present
+
+
+def _segment_max(values: np.ndarray, keys: np.ndarray, key_count: int) -> np.ndarray:
+    out = np.zeros(key_count, np.int64)
+    starts, present = _segments(keys, key_count)
+    out[present] = np.maximum.reduceat(values, starts)
+    return out
+
+
+def _segment_gcd(values: np.ndarray, keys: np.ndarray, key_count: int) -> np.ndarray:
+    out = np.zeros(key_count, np.int64)
+    starts, present = _segments(keys, key_count)
+    out[present] = np.gcd.reduceat(values, starts)
+    return out
 
 
 def _none() -> np.ndarray:
