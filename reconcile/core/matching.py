@@ -39,7 +39,9 @@ def match(
     ``engine`` picks how: ``reference`` replays each key with the readable engine of
     :mod:`reconcile.core.engine`; ``fast`` runs the integer kernel of :mod:`reconcile.fast`
     (compiled when numba is installed), which gives identical tables; ``auto`` (the default)
-    takes the fast path when numba is installed and the reference engine otherwise. Either way a
+    takes the fast path when numba is installed and the input has at least
+    :data:`AUTO_FAST_ROWS` rows (below that the reference engine finishes before the compiled
+    kernel has loaded), and the reference engine otherwise. Either way a
     key whose numbers do not fit the kernel's 64-bit integers is replayed by the reference engine.
     """
     check_choice("method", method, schema.METHODS)
@@ -83,7 +85,7 @@ def match_canonical(
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
     check_choice("engine", engine, schema.ENGINES)
-    if _use_fast(engine):
+    if _use_fast(engine, sum(len(f) for f in (fills, financing, opening) if f is not None)):
         book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
         if book is not None:
             return book
@@ -91,12 +93,16 @@ def match_canonical(
     return build_book(run, method, rounding)
 
 
-def _use_fast(engine: str) -> bool:
+#: Below this many input rows the reference engine is done before the compiled kernel is loaded.
+AUTO_FAST_ROWS = 5_000
+
+
+def _use_fast(engine: str, rows: int) -> bool:
     if engine != "auto":
         return engine == "fast"
     from reconcile.fast._jit import numba_available
 
-    return numba_available()
+    return rows >= AUTO_FAST_ROWS and numba_available()
 
 
 def _fast_book(

@@ -28,9 +28,11 @@ def decimal_texts(
     ``one(value, places)`` formats a single value: it is used only for the rare values Arrow
     would write in exponent form.
     """
-    text = pc.cast(values, pa.string())
-    dot = pc.greater_equal(pc.find_substring(text, "."), 0)
-    text = pc.if_else(dot, pc.utf8_rtrim(pc.utf8_rtrim(text, "0"), "."), text)
+    text = _plain_digits(values)
+    if text is None:
+        text = pc.cast(values, pa.string())
+        dot = pc.greater_equal(pc.find_substring(text, "."), 0)
+        text = pc.if_else(dot, pc.utf8_rtrim(pc.utf8_rtrim(text, "0"), "."), text)
     if places is not None and len(values):
         point = pc.find_substring(text, ".")
         shown = pc.if_else(
@@ -57,12 +59,39 @@ def decimal_texts(
     return text
 
 
+def _plain_digits(values: pa.Array) -> pa.Array | None:
+    """Digits of each value, trailing zeros dropped, built from its integer parts; None when an
+    unscaled value does not fit in 64 bits (Arrow's own text, with exponents, is used then)."""
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks()
+    scale = values.type.scale
+    if not pa.types.is_decimal128(values.type) or scale > 18:
+        return None
+    words = np.frombuffer(values.buffers()[1], dtype=np.int64)
+    words = words[2 * values.offset : 2 * (values.offset + len(values))].reshape(-1, 2)
+    low, high = words[:, 0], words[:, 1]
+    valid = np.asarray(values.is_valid().to_numpy(zero_copy_only=False), dtype=bool)
+    if np.any(valid & ((high != (low >> 63)) | (low == np.iinfo(np.int64).min))):
+        return None
+    magnitude = np.abs(np.where(valid, low, 0))
+    whole, fraction = np.divmod(magnitude, 10**scale)
+    sign = pc.if_else(pa.array(low < 0), "-", "")
+    digits = pc.utf8_lpad(pa.array(fraction).cast(pa.string()), width=scale, padding="0")
+    digits = pc.utf8_rtrim(digits, "0")
+    point = pc.if_else(pc.equal(digits, ""), "", ".")
+    text = pc.binary_join_element_wise(sign, pa.array(whole).cast(pa.string()), point, digits, "")
+    return pc.if_else(pa.array(valid), text, pa.scalar(None, pa.string()))
+
+
 def iso_times(nanoseconds: np.ndarray, valid: np.ndarray) -> pa.Array:
     """``pd.Timestamp.isoformat()`` of UTC instants: six places for microseconds, nine when a
     nanosecond is set, none for whole seconds; ``+00:00``."""
     seconds = nanoseconds // SECOND
     fraction = nanoseconds - seconds * SECOND
-    base = pc.strftime(pa.array(seconds, pa.timestamp("s", tz="UTC")), format="%Y-%m-%dT%H:%M:%S")
+    # Arrow writes a zone-less timestamp as "YYYY-MM-DD HH:MM:SS"; strftime is far slower.
+    base = pc.utf8_replace_slice(
+        pc.cast(pa.array(seconds, pa.timestamp("s")), pa.string()), 10, 11, "T"
+    )
     text = pc.binary_join_element_wise(base, _fraction(fraction), "+00:00", "")
     return pc.if_else(pa.array(valid), text, pa.scalar(None, pa.string()))
 

@@ -61,7 +61,6 @@ def _text_column(series: pd.Series, name: str, currencies: pd.Series | None) -> 
         text = arrow_text.decimal_texts(values, places, _one_decimal)
         return pd.Series(vectorised.string_series(text).array, index=series.index)
     if isinstance(dtype, pd.DatetimeTZDtype) or pd.api.types.is_timedelta64_dtype(dtype):
-        ints = series.to_numpy(dtype="int64", na_value=0) if len(series) else np.zeros(0, np.int64)
         valid = series.notna().to_numpy()
         if isinstance(dtype, pd.DatetimeTZDtype):
             ints = series.dt.as_unit("ns").dt.tz_convert("UTC").array.asi8.copy()
