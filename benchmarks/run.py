@@ -210,7 +210,7 @@ def _equality(path: Path) -> None:
 
 def _best(action: object, repeats: int, clock: Any = time.perf_counter) -> float:
     """The best of ``repeats`` runs, by wall clock or (for one thread) the process's CPU time."""
-    times = []
+    times: list[float] = []
     for _ in range(repeats):
         started = clock()
         action()  # type: ignore[operator]

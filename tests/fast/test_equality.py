@@ -18,9 +18,10 @@ from hypothesis import strategies as st
 import reconcile
 from reconcile.core.book import Book
 from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
+from reconcile.errors import ValidationError
 from reconcile.fast.engine import fast_book
 from reconcile.io.writers.tables import write_tables
-from tests.builders import concat, fills, rows_of
+from tests.builders import concat, fills, financing, rows_of
 from tests.strategies import financing_for, histories
 
 METHODS = st.sampled_from(["fifo", "lifo", "hifo", "average"])
@@ -169,3 +170,14 @@ def test_written_csv_files_are_byte_identical(
         write_tables(book.tables(), out, "csv")
         written[engine] = {p.name: p.read_bytes() for p in sorted(Path(out).iterdir())}
     assert written["fast"] == written["reference"]
+
+
+def test_inputs_only_the_reference_reports_raise_its_errors() -> None:
+    # a financing event in a currency the fills of its key do not use (derived)
+    history = fills([("b1", "buy", 1, "10", "2026-11-02")])
+    events = financing([("E1", "2026-11-03", "-1", "swap")], currency="EUR")
+    with pytest.raises(ValidationError) as fast:
+        reconcile.match(history, events, engine="fast")
+    with pytest.raises(ValidationError) as slow:
+        reconcile.match(history, events, engine="reference")
+    assert str(fast.value) == str(slow.value)
