@@ -44,6 +44,7 @@ class _Checker:
     source: str
     rows: np.ndarray
     problems: list[Problem] = field(default_factory=list)
+    keys: np.ndarray | None = None  # (account, instrument) codes, once per-key checks need them
 
     def add(
         self,
@@ -338,9 +339,9 @@ class _Checker:
         """One value of ``column`` per (account, instrument): name the rows that disagree."""
         if any(p.column == column for p in self.problems):
             return  # bad values would only be reported twice
-        if vectorised.one_value_per_key(
-            _arrow(frame["account"]), _arrow(frame["instrument"]), _arrow(frame[column])
-        ):
+        if self.keys is None or len(self.keys) != len(frame):
+            self.keys = vectorised.key_codes(_arrow(frame["account"]), _arrow(frame["instrument"]))
+        if vectorised.one_value_per_key(self.keys, _arrow(frame[column])):
             return
         if isinstance(frame[column].dtype, pd.ArrowDtype):
             frame = frame.assign(**{column: frame[column].astype(str)})

@@ -75,12 +75,19 @@ def repeated(values: pa.Array) -> np.ndarray:
     return flags
 
 
-def one_value_per_key(account: pa.Array, instrument: pa.Array, values: pa.Array) -> bool:
-    """Whether each (account, instrument) has a single value in ``values``."""
+def key_codes(account: pa.Array, instrument: pa.Array) -> np.ndarray:
+    """One integer per (account, instrument) pair."""
+    if len(account) == 0:
+        return np.zeros(0, np.int64)
+    instruments = _codes(instrument)
+    codes: np.ndarray = _codes(account) * (int(instruments.max()) + 1) + instruments
+    return codes
+
+
+def one_value_per_key(keys: np.ndarray, values: pa.Array) -> bool:
+    """Whether each key (see :func:`key_codes`) has a single value in ``values``."""
     if len(values) == 0:
         return True
-    width = int(_codes(instrument).max()) + 1
-    keys = _codes(account) * width + _codes(instrument)
     codes = _codes(values)
     low = np.full(int(keys.max()) + 1, np.iinfo(np.int64).max)
     high = np.full(int(keys.max()) + 1, -1)

@@ -96,24 +96,35 @@ def to_decimal(
     """One Arrow decimal column from integers each at its own scale, at the narrowest type."""
     values = np.asarray(values, dtype=np.int64)
     row_scales = np.broadcast_to(np.asarray(scales, dtype=np.int64), values.shape)
-    scale = int(row_scales.max()) if len(values) else 0
+    if not len(values):
+        return pa.array([], pa.decimal128(1, 0))
+    scale, lowest = int(row_scales.max()), int(row_scales.min())
+    raised, bad = values, np.zeros(1, bool)
+    if lowest < scale and scale - lowest <= 18:
+        raised, bad = checked_mul(values, POW10[np.minimum(scale - row_scales, 18)])
+    if lowest == scale or (not bad.any() and scale - lowest <= 18):
+        present = raised if valid is None else raised[valid]
+        largest = int(np.abs(present).max()) if len(present) else 0
+        whole = max(len(str(largest)) - scale, 1) if largest else 1
+        if whole + scale <= 38:
+            return _from_ints(raised, pa.decimal128(whole + scale, scale), valid)
+    return _mixed_scales(values, row_scales, valid)
+
+
+def _mixed_scales(values: np.ndarray, row_scales: np.ndarray, valid: np.ndarray | None) -> pa.Array:
+    """The rare column whose values, brought to one scale, would not fit in 64 bits."""
+    scale = int(row_scales.max())
     present = values if valid is None else values[valid]
     present_scales = row_scales if valid is None else row_scales[valid]
     int_digits = int((digits(present) - present_scales).max()) if len(present) else 1
     kind = _decimal_type(max(int_digits, 1) + scale, scale)
-    lowest = int(row_scales.min()) if len(values) else scale
-    if lowest == scale:
-        return _from_ints(values, scale, valid).cast(kind)
-    raised, bad = checked_mul(values, POW10[np.minimum(scale - row_scales, 18)])
-    if not bad.any() and scale - lowest <= 18:
-        return _from_ints(raised, scale, valid).cast(kind)
     distinct = np.unique(row_scales)
     order = np.argsort(row_scales, kind="stable")
     parts = []
     for s in distinct:
         rows = order[row_scales[order] == s]
         part_valid = None if valid is None else valid[rows]
-        parts.append(_from_ints(values[rows], int(s), part_valid).cast(kind))
+        parts.append(_from_ints(values[rows], pa.decimal128(38, int(s)), part_valid).cast(kind))
     inverse = np.empty_like(order)
     inverse[order] = np.arange(len(order))
     return pa.concat_arrays(parts).take(pa.array(inverse))
@@ -125,16 +136,15 @@ def _decimal_type(precision: int, scale: int) -> pa.DataType:
     return pa.decimal256(precision, scale)
 
 
-def _from_ints(values: np.ndarray, scale: int, valid: np.ndarray | None) -> pa.Array:
+def _from_ints(values: np.ndarray, kind: pa.DataType, valid: np.ndarray | None) -> pa.Array:
+    """A decimal128 array over the integers (which must fit ``kind``), without a cast."""
     words = np.empty((len(values), 2), dtype=np.int64)
     words[:, 0] = values
     words[:, 1] = values >> 63
     validity = None
     if valid is not None and not valid.all():
         validity = pa.array(valid).buffers()[1]
-    return pa.Array.from_buffers(
-        pa.decimal128(38, scale), len(values), [validity, pa.py_buffer(words)]
-    )
+    return pa.Array.from_buffers(kind, len(values), [validity, pa.py_buffer(words)])
 
 
 def ints_of(values: pa.Array | pa.ChunkedArray) -> np.ndarray:

@@ -5,10 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pandas as pd
-import pyarrow as pa
-import pyarrow.compute as pc
 
-from reconcile.core import vectorised
 from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
 from reconcile.errors import ValidationError
 from reconcile.io.readers.tabular import read_table
@@ -29,15 +26,16 @@ def read_fills(
     """Read and validate a fills file (CSV or Parquet) into the canonical fill columns."""
     raw = read_table(path, input_format, decimals=_FILL_DECIMALS)
     typed = Path(path).suffix.lower() != ".parquet" and _has_decimals(raw)
-    if typed and _ids_repeat(raw):
-        # Repeated rows are compared as written: 5 and 5.0 are not the same text.
-        raw = read_table(path, input_format)
-        typed = False
     try:
-        return canonical_fills(raw, source=str(path), timezone=timezone, dedupe=dedupe)
+        result = canonical_fills(raw, source=str(path), timezone=timezone, dedupe=dedupe)
     except ValidationError:
         if not typed:
             raise
+    else:
+        # Repeated rows are compared as written (5 and 5.0 are not the same text), so a file
+        # with repeats is judged by the text path.
+        if not typed or not result.attrs["read_summary"]["duplicates_dropped"]:
+            return result
     # Report problems as the text path words them, with every value as written in the file.
     raw = read_table(path, input_format)
     return canonical_fills(raw, source=str(path), timezone=timezone, dedupe=dedupe)
@@ -45,13 +43,6 @@ def read_fills(
 
 def _has_decimals(raw: pd.DataFrame) -> bool:
     return any(isinstance(raw[c].dtype, pd.ArrowDtype) for c in _FILL_DECIMALS if c in raw)
-
-
-def _ids_repeat(raw: pd.DataFrame) -> bool:
-    if "fill_id" not in raw:
-        return False
-    ids = pc.utf8_trim_whitespace(pa.array(raw["fill_id"].array))
-    return bool(vectorised.repeated(ids).any())
 
 
 def read_financing(
