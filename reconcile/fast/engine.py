@@ -62,7 +62,10 @@ def fast_book(
     }
     if reference is not None:
         tables = _merge(tables, reference, prepared, fallback, offsets)
-    frames = {name: frame_from_arrow(table.drop_columns([KEY])) for name, table in tables.items()}
+    del builder, out, derived, prepared  # the kernel's arrays are not needed past this point
+    frames = {}
+    for name in list(tables):  # one table at a time, so each Arrow copy is freed as it goes
+        frames[name] = frame_from_arrow(tables.pop(name).drop_columns([KEY]))
     return Book(**frames, method=method, commission=convention, rounding=rounding)
 
 
