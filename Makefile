@@ -1,5 +1,7 @@
 # The two set-up commands of the README: `make demo` and `make test`.
 # Both create .venv with the machine's Python 3.11+ and install the package with its test extras.
+# The fast extra (numba) is installed too, so the tests check the compiled kernel, not only its
+# plain-Python form.
 
 PYTHON ?= $(shell command -v python3.11 2>/dev/null || command -v python3)
 VENV := .venv
@@ -12,7 +14,7 @@ DEMO_OUT := demo-out
 $(STAMP): pyproject.toml constraints.txt
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -c constraints.txt -e '.[test]'
+	$(BIN)/python -m pip install --quiet -c constraints.txt -e '.[test,fast]'
 	touch $(STAMP)
 
 demo: $(STAMP)

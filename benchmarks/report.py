@@ -13,7 +13,7 @@ import time
 from pathlib import Path
 
 import pandas as pd
-from run import synthetic_fills  # benchmarks/run.py, beside this script
+from synthetic import synthetic_table  # benchmarks/synthetic.py, beside this script
 
 import reconcile
 from reconcile.io import reporting
@@ -23,7 +23,7 @@ from reconcile.io.writers.report import write_report
 
 def main() -> None:
     count = int(sys.argv[1]) if len(sys.argv) > 1 else 20_000
-    fills = synthetic_fills(count)
+    fills = synthetic_table(count).to_pandas()
     book = reconcile.match(fills)
     trips = len(book.round_trips)
     started = time.perf_counter()

@@ -16,7 +16,10 @@ FINANCING_KINDS: Final = ("swap", "financing", "borrow", "dividend", "fee", "oth
 METHODS: Final = ("fifo", "lifo", "hifo", "average")
 COMMISSION_CONVENTIONS: Final = ("at-close", "at-fill")
 
+ENGINES: Final = ("auto", "reference", "fast")
+
 Method = Literal["fifo", "lifo", "hifo", "average"]
+Engine = Literal["auto", "reference", "fast"]
 CommissionConvention = Literal["at-close", "at-fill"]
 
 FILL_REQUIRED: Final = (

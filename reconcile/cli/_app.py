@@ -70,6 +70,15 @@ Rounding = Annotated[
         "--rounding", metavar="half-even|half-up", help="Rounding of amounts to minor units."
     ),
 ]
+Engine = Annotated[
+    str,
+    typer.Option(
+        "--engine",
+        metavar="auto|reference|fast",
+        help="How to match: the compiled kernel (fast), the readable engine (reference), or "
+        "the fastest available (auto). All give the same results.",
+    ),
+]
 OutDir = Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")]
 InputFile = Annotated[
     Path,

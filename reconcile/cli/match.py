@@ -10,6 +10,7 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    Engine,
     FixLenient,
     InputFile,
     InputFormat,
@@ -45,6 +46,7 @@ def match_command(
     rounding: Rounding = "half-even",
     timezone: Timezone = None,
     dedupe: Dedupe = False,
+    engine: Engine = "auto",
     out: OutDir = Path("reconcile-out"),
     fmt: Annotated[
         str,
@@ -69,7 +71,9 @@ def match_command(
         keep_rejects=rejects is not None,
         fix_lenient=fix_lenient,
     )
-    book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
+    book = session.match_inputs(
+        inputs, method=method, commission=commission, rounding=rounding, engine=engine
+    )
     written = session.write_book(book, inputs, out, fmt)
     session.finish_rejects(inputs, rejects)
     session.show_match(book, inputs, written, rejects)

@@ -20,6 +20,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from reconcile import schema
+from reconcile.core import vectorised
 from reconcile.errors import MissingColumnsError, Problem, ValidationError, raise_if_problems
 from reconcile.money import is_known_currency, minor_unit
 from reconcile.timezones import zone
@@ -43,6 +44,7 @@ class _Checker:
     source: str
     rows: np.ndarray
     problems: list[Problem] = field(default_factory=list)
+    keys: np.ndarray | None = None  # (account, instrument) codes, once per-key checks need them
 
     def add(
         self,
@@ -129,7 +131,7 @@ class _Checker:
         ):
             values = _arrow(series)
             blank = pc.is_null(values)
-            shown = values.cast(pa.string())
+            shown = values  # shown as text only for the rows a problem names
         else:
             shown = pc.utf8_trim_whitespace(self.raw_text(column))
             blank = pc.fill_null(pc.equal(shown, ""), True)
@@ -144,6 +146,9 @@ class _Checker:
 
     def _parse_decimal_text(self, column: str, text: pa.Array, expected: str) -> pa.Array:
         """Parse text exactly; blanks and reported bad values come back null."""
+        parsed = vectorised.plain_decimals(text)
+        if parsed is not None:
+            return parsed
         text = pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.string()), text)
         plain = pc.fill_null(pc.match_substring_regex(text, _PLAIN_DECIMAL), True)
         rewritten, bad = _rewrite_exponents(text, plain)
@@ -197,6 +202,9 @@ class _Checker:
             text = pa.array(series.dt.strftime("%Y-%m-%dT%H:%M:%S.%f").tolist(), pa.string())
         else:
             text = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
+            parsed = vectorised.iso_times(text)
+            if parsed is not None:
+                return pd.Series(parsed.to_pandas(), dtype=TIME_DTYPE)
         parts = pc.extract_regex(text, _ISO_TIME)
         bad_shape = _positions(pc.is_null(parts))
         self.add(
@@ -275,6 +283,20 @@ class _Checker:
         self, column: str, ids: pa.Array, compare: list[str], dedupe: bool
     ) -> np.ndarray:
         """Rows to keep; exact repeats are errors unless ``dedupe``, clashing ids always are."""
+        # Only rows sharing an id can repeat or clash, so only those are compared in full.
+        suspects = np.flatnonzero(vectorised.repeated(ids))
+        keep = np.ones(len(self.frame), dtype=bool)
+        if not len(suspects):
+            return keep
+        frame = self.frame.iloc[suspects].reset_index(drop=True)
+        sub = _Checker(frame, self.source, self.rows[suspects])
+        keep[suspects] = sub.compare_rows(column, ids.take(pa.array(suspects)), compare, dedupe)
+        self.problems += sub.problems
+        return keep
+
+    def compare_rows(
+        self, column: str, ids: pa.Array, compare: list[str], dedupe: bool
+    ) -> np.ndarray:
         table = self.frame[compare].astype(str).reset_index(drop=True)
         table[column] = ids.to_pylist()
         exact = table.duplicated(keep="first").to_numpy()
@@ -319,6 +341,12 @@ class _Checker:
         """One value of ``column`` per (account, instrument): name the rows that disagree."""
         if any(p.column == column for p in self.problems):
             return  # bad values would only be reported twice
+        if self.keys is None or len(self.keys) != len(frame):
+            self.keys = vectorised.key_codes(_arrow(frame["account"]), _arrow(frame["instrument"]))
+        if vectorised.one_value_per_key(self.keys, _arrow(frame[column])):
+            return
+        if isinstance(frame[column].dtype, pd.ArrowDtype):
+            frame = frame.assign(**{column: frame[column].astype(str)})
         grouped = frame.groupby(["account", "instrument"], sort=False)[column]
         counts = grouped.nunique()
         for account, instrument in counts[counts > 1].index:
@@ -454,13 +482,16 @@ def _assemble(
     rows: np.ndarray,
 ) -> pd.DataFrame:
     data: dict[str, Any] = {}
+    every = bool(keep.all())
     for name, values in columns.items():
         if isinstance(values, pd.Series):
             data[name] = values[keep].reset_index(drop=True)
-        elif pa.types.is_decimal(values.type):
-            data[name] = pd.Series(values.filter(pa.array(keep)), dtype=pd.ArrowDtype(values.type))
+            continue
+        kept = values if every else values.filter(pa.array(keep))
+        if pa.types.is_decimal(values.type):
+            data[name] = pd.Series(kept, dtype=pd.ArrowDtype(values.type))
         else:
-            data[name] = pd.Series(values.filter(pa.array(keep)).to_pylist(), dtype="str")
+            data[name] = vectorised.string_series(kept)
     for name in extras:
         data[name] = frame[name].reset_index(drop=True)[keep].reset_index(drop=True)
     data[schema.SOURCE_ROW] = rows[keep]
@@ -500,9 +531,7 @@ def canonical_fills(
     keep = check.check_distinct_ids("fill_id", columns["fill_id"], compare, dedupe)
     result = _assemble(columns, frame, keep, _extras(frame, schema.FILL_COLUMNS), check.rows)
     check.check_one_per_key(result, "currency", "currency")
-    check.check_one_per_key(
-        result.assign(multiplier=result["multiplier"].astype(str)), "multiplier", "multiplier"
-    )
+    check.check_one_per_key(result, "multiplier", "multiplier")
     _raise(check)
     result.attrs["read_summary"] = {
         "source": source,
@@ -578,9 +607,7 @@ def canonical_opening(
     keep = np.ones(len(frame), dtype=bool)
     result = _assemble(columns, frame, keep, [], check.rows)
     check.check_one_per_key(result, "currency", "currency")
-    check.check_one_per_key(
-        result.assign(multiplier=result["multiplier"].astype(str)), "multiplier", "multiplier"
-    )
+    check.check_one_per_key(result, "multiplier", "multiplier")
     _raise(check)
     return result
 

@@ -61,3 +61,9 @@ def _pandas_type(kind: pa.DataType) -> Any:
     if pa.types.is_string(kind):
         return pd.StringDtype(na_value=float("nan"))
     return None
+
+
+def frame_from_arrow(table: pa.Table) -> pd.DataFrame:
+    """A DataFrame of an Arrow table, with the same column types :func:`build_frame` gives."""
+    frame: pd.DataFrame = table.to_pandas(types_mapper=_pandas_type)
+    return frame

@@ -25,6 +25,7 @@ def match(
     rounding: Rounding = "half-even",
     timezone: str | None = None,
     progress: Progress | None = None,
+    engine: schema.Engine = "auto",
 ) -> Book:
     """Match fills into closed lots, round trips, open lots and positions.
 
@@ -34,10 +35,19 @@ def match(
     the lot's basis until it closes) or ``at-fill`` (every commission is realized when paid).
     ``timezone`` places times that carry no UTC offset. ``progress(done, total)`` is called as
     (account, instrument) keys finish.
+
+    ``engine`` picks how: ``reference`` replays each key with the readable engine of
+    :mod:`reconcile.core.engine`; ``fast`` runs the integer kernel of :mod:`reconcile.fast`
+    (compiled when numba is installed), which gives identical tables; ``auto`` (the default)
+    takes the fast path when the input has at least :data:`AUTO_FAST_ROWS` rows (below that the
+    reference engine finishes before the compiled kernel has loaded) and the reference engine
+    otherwise. Either way a
+    key whose numbers do not fit the kernel's 64-bit integers is replayed by the reference engine.
     """
     check_choice("method", method, schema.METHODS)
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
+    check_choice("engine", engine, schema.ENGINES)
     fills = canonical_fills(fills, source=_label(fills, "fills"), timezone=timezone)
     if financing is not None:
         financing = canonical_financing(
@@ -45,8 +55,81 @@ def match(
         )
     if opening is not None:
         opening = canonical_opening(opening, source=_label(opening, "opening"), timezone=timezone)
+    return match_canonical(
+        fills,
+        financing,
+        opening=opening,
+        method=method,
+        commission=commission,
+        rounding=rounding,
+        progress=progress,
+        engine=engine,
+    )
+
+
+@exact_arithmetic
+def match_canonical(
+    fills: pd.DataFrame,
+    financing: pd.DataFrame | None = None,
+    *,
+    opening: pd.DataFrame | None = None,
+    method: schema.Method = "fifo",
+    commission: schema.CommissionConvention = "at-close",
+    rounding: Rounding = "half-even",
+    progress: Progress | None = None,
+    engine: schema.Engine = "auto",
+) -> Book:
+    """:func:`match` for inputs that are already canonical (what the readers return), so a
+    command that has just read and validated its files does not validate them twice."""
+    check_choice("method", method, schema.METHODS)
+    check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
+    check_choice("rounding", rounding, tuple(ROUNDING_MODES))
+    check_choice("engine", engine, schema.ENGINES)
+    if _use_fast(engine, sum(len(f) for f in (fills, financing, opening) if f is not None)):
+        book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
+        if book is not None:
+            return book
     run = replay(fills, financing, opening, method, commission, progress)
     return build_book(run, method, rounding)
+
+
+#: Below this many input rows the reference engine is done before the compiled kernel is loaded.
+AUTO_FAST_ROWS = 5_000
+
+
+def _use_fast(engine: str, rows: int) -> bool:
+    """``auto``: the kernel from :data:`AUTO_FAST_ROWS` rows up; compiled it is tens of times
+    faster than the reference engine, and even as plain Python (no numba) about six times."""
+    if engine != "auto":
+        return engine == "fast"
+    return rows >= AUTO_FAST_ROWS
+
+
+def _fast_book(
+    fills: pd.DataFrame,
+    financing: pd.DataFrame | None,
+    opening: pd.DataFrame | None,
+    method: str,
+    commission: str,
+    rounding: Rounding,
+    progress: Progress | None,
+) -> Book | None:
+    """The fast path's book, or None when the inputs hold something only the reference engine
+    reports (it then raises the same errors it always does)."""
+    from reconcile.fast._jit import numba_available
+    from reconcile.fast.engine import fast_book
+    from reconcile.fast.prepare import NeedsReference
+
+    try:
+        book = fast_book(
+            fills, financing, opening, method, commission, rounding, compiled=numba_available()
+        )
+    except NeedsReference:
+        return None
+    if progress is not None:
+        keys = len(book.positions)
+        progress(keys, keys)
+    return book
 
 
 def check_choice(option: str, value: str, choices: Sequence[str]) -> None:

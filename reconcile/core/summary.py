@@ -5,6 +5,7 @@ from __future__ import annotations
 from decimal import Decimal
 
 import pandas as pd
+import pyarrow as pa
 
 from reconcile.core.book import Book
 from reconcile.core.frames import build_frame
@@ -39,7 +40,12 @@ def currency_totals(book: Book) -> pd.DataFrame:
 
 
 def _sums(frame: pd.DataFrame, column: str) -> dict[str, Decimal]:
-    totals: dict[str, Decimal] = {}
-    for code, value in zip(frame["currency"].tolist(), frame[column].tolist(), strict=True):
-        totals[code] = totals.get(code, ZERO) + value
-    return totals
+    """Exact sums per currency, over whole columns: 76 digits leave no room for a wrap."""
+    if frame.empty:
+        return {}
+    values = pa.array(frame[column].array)
+    wide = pa.decimal256(76, values.type.scale)
+    table = pa.table({"currency": pa.array(frame["currency"].array), "value": values.cast(wide)})
+    sums = table.group_by("currency", use_threads=False).aggregate([("value", "sum")])
+    codes, totals = sums.column("currency").to_pylist(), sums.column("value_sum").to_pylist()
+    return {str(c): ZERO + t for c, t in zip(codes, totals, strict=True)}

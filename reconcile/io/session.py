@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
-from reconcile.core.matching import match
+from reconcile.core.matching import match_canonical
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError
 from reconcile.io.readers import read_marks, read_opening
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
@@ -134,7 +134,7 @@ def _opening(path: Path, timezone: str | None) -> pd.DataFrame:
 
 def match_inputs(inputs: Inputs, **options: Any) -> Book:
     with terminal.progress_bar("matching") as progress:
-        return match(
+        return match_canonical(
             inputs.fills, inputs.financing, opening=inputs.opening, progress=progress, **options
         )
 

@@ -140,3 +140,23 @@ def test_help_lists_the_commands() -> None:
     result = run("--help")
     assert result.exit_code == 0
     assert "match" in result.stdout
+
+
+@pytest.mark.parametrize("engine", ["reference", "fast"])
+def test_both_engines_write_the_same_files(workdir: Path, engine: str) -> None:
+    # derived: the fast path must reproduce the reference engine byte for byte
+    result = run(
+        "match", "fills.csv", "--financing", "financing.csv", "--engine", engine, "--out", engine
+    )
+    assert result.exit_code == 0, result.output
+    expected = CASE / "expected"
+    for name in ("closed_lots.csv", "round_trips.csv", "open_lots.csv", "positions.csv"):
+        assert (workdir / engine / name).read_bytes() == (expected / name).read_bytes(), name
+
+
+def test_unknown_engine_exits_2(workdir: Path) -> None:
+    result = run("match", "fills.csv", "--engine", "turbo")
+    assert result.exit_code == 2
+    assert lines(result.stderr) == [
+        "error: engine: expected one of auto, reference, fast, found 'turbo'"
+    ]

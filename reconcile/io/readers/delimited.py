@@ -11,6 +11,7 @@ from __future__ import annotations
 import codecs
 import csv
 import io
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -20,6 +21,7 @@ import pyarrow as pa
 import pyarrow.csv as pa_csv
 
 from reconcile.errors import InputError, Problem, SourceEmptyError, ValidationError
+from reconcile.io.readers.typed_csv import read_decimal_csv
 from reconcile.schema import SOURCE_ROW
 
 #: Files up to this size are re-read to number rows by line when records span lines.
@@ -45,9 +47,20 @@ class Dialect:
         return "utf8" if name in ("utf-8", "utf-8-sig") else name
 
 
-def read_delimited(path: Path, dialect: Dialect = Dialect()) -> pd.DataFrame:
-    """The file's rows as text columns plus ``source_row`` (the line each record starts on)."""
+def read_delimited(
+    path: Path, dialect: Dialect = Dialect(), decimals: Sequence[str] = ()
+) -> pd.DataFrame:
+    """The file's rows as text columns plus ``source_row`` (the line each record starts on).
+
+    In a plain UTF-8, comma-separated file, columns named in ``decimals`` may come back as exact
+    Arrow decimals parsed by pyarrow itself (see :mod:`reconcile.io.readers.typed_csv`).
+    """
     header = _csv_header(path, _head(path, dialect), dialect)
+    if decimals and dialect == Dialect():
+        typed = read_decimal_csv(path, header, decimals)
+        if typed is not None:
+            typed[SOURCE_ROW] = _record_lines(path, len(typed), dialect)
+            return typed
     types = {name: pa.string() for name in header}
     try:
         table = pa_csv.read_csv(

@@ -76,13 +76,60 @@ def read_source(
     fix_lenient: bool = False,
 ) -> Source:
     """Read, map and validate one input file (see the module docstring)."""
-    path = Path(path)
+
+    def attempt(decimals: Sequence[str] = ()) -> Source:
+        return _read_source(
+            Path(path),
+            kind,
+            profile=profile,
+            input_format=input_format,
+            timezone=timezone,
+            dedupe=dedupe,
+            keep_rejects=keep_rejects,
+            fix_lenient=fix_lenient,
+            decimals=decimals,
+        )
+
+    if kind == "fills" and profile is None and not keep_rejects:
+        # Clean canonical fills have their decimals parsed by the CSV reader itself. Problems,
+        # and repeated rows (compared as written: 5 and 5.0 are different text), are judged by
+        # the text path, so every message shows each value as the file writes it.
+        try:
+            typed = attempt(FILL_DECIMALS)
+        except ValidationError:
+            pass
+        else:
+            if not _has_decimals(typed.frame) or not typed.summary.get("duplicates_dropped"):
+                return typed
+    return attempt()
+
+
+#: Fill columns a plain CSV can have parsed as decimals by the reader.
+FILL_DECIMALS = ("quantity", "price", "commission", "multiplier")
+
+
+def _has_decimals(frame: pd.DataFrame) -> bool:
+    return any(isinstance(frame[c].dtype, pd.ArrowDtype) for c in FILL_DECIMALS if c in frame)
+
+
+def _read_source(
+    path: Path,
+    kind: str,
+    *,
+    profile: ProfileLike,
+    input_format: str | None,
+    timezone: str | None,
+    dedupe: bool,
+    keep_rejects: bool,
+    fix_lenient: bool,
+    decimals: Sequence[str] = (),
+) -> Source:
     chosen = as_profile(profile)
     if chosen is not None and chosen.kind != kind:
         raise ConfigError(f"profile for {chosen.kind} given for the {kind} input {path}")
     check_exists(path)
     fmt = detect_format(path, input_format or (chosen.source.format if chosen else None))
-    raw = _read_raw(path, fmt, kind, chosen, fix_lenient)
+    raw = _read_raw(path, fmt, kind, chosen, fix_lenient, decimals)
     zone = timezone or (chosen.time.timezone if chosen else None)
     source = str(path)
     pre = _shown(raw.problems, raw.shown)
@@ -109,7 +156,14 @@ def read_source(
     return Source(accepted, rejected, summary, raw.warnings, _ordered(problems))
 
 
-def _read_raw(path: Path, fmt: str, kind: str, profile: Profile | None, lenient: bool) -> _Raw:
+def _read_raw(
+    path: Path,
+    fmt: str,
+    kind: str,
+    profile: Profile | None,
+    lenient: bool,
+    decimals: Sequence[str] = (),
+) -> _Raw:
     if fmt == "fix":
         if kind != "fills":
             raise ConfigError(f"{path}: a FIX log holds fills, not {kind}")
@@ -144,6 +198,7 @@ def _read_raw(path: Path, fmt: str, kind: str, profile: Profile | None, lenient:
         places=places,
         decimal_mark=profile.numbers.decimal if profile else ".",
         header_row=source.header_row if source else None,
+        decimals=decimals,
     )
     problems: list[Problem] = list(frame.attrs.pop(PROBLEMS, []))
     raw_lines: dict[int, str] = dict(frame.attrs.pop(RAW_LINES, {}))

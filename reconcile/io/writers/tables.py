@@ -8,13 +8,16 @@ from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pa_csv
 import pyarrow.parquet as pq
 
 from reconcile import schema
+from reconcile.core import vectorised
 from reconcile.errors import OutputError
+from reconcile.io.writers import arrow_text
 from reconcile.io.writers.atomic import FileSet, Writer, file_set
 from reconcile.money import minor_unit
 
@@ -88,24 +91,44 @@ def _is_text(series: pd.Series) -> bool:
 
 
 def _text_column(series: pd.Series, name: str, currencies: pd.Series | None) -> pd.Series:
+    """One column as text, whole-column (see :mod:`reconcile.io.writers.arrow_text`)."""
     dtype = series.dtype
     if isinstance(dtype, pd.ArrowDtype) and pa.types.is_decimal(dtype.pyarrow_dtype):
         money = name in schema.MONEY_COLUMNS and currencies is not None
-        codes = _values(currencies) if money and currencies is not None else [None] * len(series)
-        return pd.Series(
-            [decimal_text(v, c) for v, c in zip(_values(series), codes, strict=True)],
-            index=series.index,
-            dtype="str",
-        )
-    if isinstance(dtype, pd.DatetimeTZDtype):
-        return pd.Series(
-            [None if pd.isna(v) else v.isoformat() for v in series], index=series.index, dtype="str"
-        )
-    if pd.api.types.is_timedelta64_dtype(dtype):
-        return pd.Series(
-            [None if pd.isna(v) else v.isoformat() for v in series], index=series.index, dtype="str"
-        )
+        places = _minor_units(currencies) if money and currencies is not None else None
+        values = pa.array(series.array)
+        text = arrow_text.decimal_texts(values, places, _one_decimal)
+        return pd.Series(vectorised.string_series(text).array, index=series.index)
+    if isinstance(dtype, pd.DatetimeTZDtype) or pd.api.types.is_timedelta64_dtype(dtype):
+        valid = series.notna().to_numpy()
+        if isinstance(dtype, pd.DatetimeTZDtype):
+            ints = series.dt.as_unit("ns").dt.tz_convert("UTC").array.asi8.copy()
+            ints[~valid] = 0
+            text = arrow_text.iso_times(ints, valid)
+        else:
+            ints = series.astype("timedelta64[ns]").to_numpy().view("int64").copy()
+            ints[~valid] = 0
+            text = arrow_text.iso_durations(ints, valid)
+        return pd.Series(vectorised.string_series(text).array, index=series.index)
     return series.astype("str") if not pd.api.types.is_integer_dtype(dtype) else series
+
+
+def _minor_units(currencies: pd.Series) -> np.ndarray:
+    """The minor unit of each row's currency (0 for a code with none)."""
+    codes, uniques = pd.factorize(currencies)
+    units = np.array([minor_unit(str(c)) or 0 for c in uniques] + [0], dtype=np.int64)
+    found: np.ndarray = units[codes]
+    return found
+
+
+def _one_decimal(value: Decimal | None, places: int) -> str | None:
+    if value is None:
+        return None
+    text = decimal_text(value)
+    if text is None or places == 0:
+        return text
+    whole, _, fraction = text.partition(".")
+    return f"{whole}.{fraction.ljust(places, '0')}"
 
 
 def _values(series: pd.Series) -> list[Any]:

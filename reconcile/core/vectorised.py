@@ -1,0 +1,112 @@
+"""Whole-column shortcuts for :mod:`reconcile.core.canon`, for inputs of millions of rows.
+
+Each function answers for the common, clean case in a few Arrow or numpy passes, and returns None
+(or "nothing to report") when the slower, row-aware code of canon must look: that code stays the
+one that words every problem. A shortcut never accepts a value canon's own rules would refuse.
+"""
+
+from __future__ import annotations
+
+from decimal import Decimal
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+MAX_DIGITS = 38
+
+
+def plain_decimals(text: pa.Array) -> pa.Array | None:
+    """Exact decimals of plain decimal text (blank = null), or None when any value needs canon.
+
+    Arrow's decimal parser takes the same plain forms canon's pattern does (``+5``, ``5.``,
+    ``.5``); exponent forms are left to canon, which rewrites them with their own places.
+    """
+    if pc.any(pc.match_substring(text, "e", ignore_case=True)).as_py():
+        return None
+    text = pc.if_else(pc.equal(text, ""), pa.scalar(None, pa.string()), text)
+    dot = pc.find_substring(text, ".")
+    places = pc.if_else(
+        pc.greater_equal(dot, 0), pc.subtract(pc.subtract(pc.utf8_length(text), dot), 1), 0
+    )
+    scale = pc.max(places).as_py() or 0
+    if scale > MAX_DIGITS:
+        return None
+    try:
+        values = pc.cast(text, pa.decimal128(MAX_DIGITS, scale))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    largest = pc.max(pc.abs(values)).as_py() if values.null_count < len(values) else None
+    whole = _whole_digits(largest)
+    if whole + scale > MAX_DIGITS:
+        return None
+    return values.cast(pa.decimal128(max(whole, 1) + scale, scale))
+
+
+def _whole_digits(value: Decimal | None) -> int:
+    if value is None or value == 0:
+        return 0
+    return max(value.adjusted() + 1, 0)
+
+
+def iso_times(text: pa.Array) -> pa.Array | None:
+    """UTC timestamps of ISO 8601 text that all carries a UTC offset, or None for canon to look.
+
+    Arrow's parser takes a subset of canon's forms, except an hour without minutes
+    (``2026-11-02T10Z``), which canon refuses: every value must have its minutes.
+    """
+    if len(text) == 0 or text.null_count:
+        return None
+    minutes = pc.equal(pc.utf8_slice_codeunits(text, 13, 14), ":")
+    if not pc.all(minutes).as_py():
+        return None
+    try:
+        return pc.cast(text, pa.timestamp("ns", tz="UTC"))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+
+
+def repeated(values: pa.Array) -> np.ndarray:
+    """Rows whose value occurs more than once in the column."""
+    codes = _codes(values)
+    counts = np.bincount(codes) if len(codes) else np.zeros(0, np.int64)
+    flags: np.ndarray = counts[codes] > 1
+    return flags
+
+
+def key_codes(account: pa.Array, instrument: pa.Array) -> np.ndarray:
+    """One integer per (account, instrument) pair."""
+    if len(account) == 0:
+        return np.zeros(0, np.int64)
+    instruments = _codes(instrument)
+    codes: np.ndarray = _codes(account) * (int(instruments.max()) + 1) + instruments
+    return codes
+
+
+def one_value_per_key(keys: np.ndarray, values: pa.Array) -> bool:
+    """Whether each key (see :func:`key_codes`) has a single value in ``values``."""
+    if len(values) == 0:
+        return True
+    codes = _codes(values)
+    low = np.full(int(keys.max()) + 1, np.iinfo(np.int64).max)
+    high = np.full(int(keys.max()) + 1, -1)
+    np.minimum.at(low, keys, codes)
+    np.maximum.at(high, keys, codes)
+    seen = high >= 0
+    return bool(np.all(low[seen] == high[seen]))
+
+
+def _codes(values: pa.Array) -> np.ndarray:
+    encoded = pc.dictionary_encode(values)
+    if isinstance(encoded, pa.ChunkedArray):
+        encoded = encoded.combine_chunks()
+    return np.asarray(encoded.indices.to_numpy(zero_copy_only=False), dtype=np.int64)
+
+
+def string_series(values: pa.Array) -> pd.Series:
+    """A pandas ``str`` column over Arrow strings, without a row-by-row copy."""
+    kind = pd.StringDtype(na_value=np.nan)
+    array = kind.__from_arrow__(pa.chunked_array([values]))  # type: ignore[attr-defined]
+    series: pd.Series = pd.Series(array, dtype=kind)
+    return series

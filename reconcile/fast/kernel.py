@@ -1,0 +1,549 @@
+"""The matching kernel: every key's replay in scaled 64-bit integers, exactly as the reference does.
+
+Inputs are contiguous arrays sorted by key, then time, then input order, with per-key offsets; each
+decimal is an integer at a per-key scale (quantity ``qs``, price ``ps``, multiplier ``ms`` and money
+``ws``, where ``ws >= qs + ps + ms`` and ``ws`` is at least the currency's minor unit and every
+charge's places). Each rule of :mod:`reconcile.core.engine` is repeated here step by step, in the
+same order: the largest-remainder split of a fill's commission over [closed pieces..., opened
+remainder], the remaining-balance share of a lot's charges on a partial close, the average basis
+relieved in minor units, financing before fills at equal times, totals rounded once.
+
+Every product and sum is checked against the int64 range. A key whose numbers do not fit is left
+out of the output (its rows are rolled back) and flagged, so the caller replays it with the
+reference engine: the kernel never wraps. The functions run compiled by numba when it is installed
+and as plain Python otherwise; both give the same integers.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from reconcile.fast._jit import inline, jit
+
+LIMIT = 9223372036854775807  # 2**63 - 1; values are kept within +-LIMIT, never at -2**63
+SMALL = 3037000499  # floor(sqrt(LIMIT)): the product of two smaller magnitudes always fits
+POW10 = np.array([10**k for k in range(19)], dtype=np.int64)
+
+FIFO, LIFO, HIFO, AVERAGE = 0, 1, 2, 3
+METHOD_CODES = {"fifo": FIFO, "lifo": LIFO, "hifo": HIFO, "average": AVERAGE}
+
+#: Decimal places of averaged prices (engine.AVERAGE_PLACES).
+AVERAGE_PLACES = 10
+
+OK, OVERFLOW = 0, 1
+
+
+@inline
+def _mul(a: Any, b: Any, err: Any) -> Any:
+    if -SMALL <= a <= SMALL and -SMALL <= b <= SMALL:
+        return a * b
+    if a == 0 or b == 0:
+        return 0
+    if abs(a) > LIMIT // abs(b):
+        err[0] = 1
+        return 0
+    return a * b
+
+
+@inline
+def _add(a: Any, b: Any, err: Any) -> Any:
+    if (b > 0 and a > LIMIT - b) or (b < 0 and a < -LIMIT - b):
+        err[0] = 1
+        return 0
+    return a + b
+
+
+@inline
+def _pow10(places: Any, err: Any) -> Any:
+    if places < 0 or places > 18:
+        err[0] = 1
+        return 1
+    return POW10[places]
+
+
+@inline
+def _places(value: Any, scale: Any) -> Any:
+    """Significant decimal places of ``value / 10**scale`` (money.significant_places)."""
+    places = scale
+    while places > 0 and value % 10 == 0:
+        value //= 10
+        places -= 1
+    return places
+
+
+@inline
+def _charge_places(amount: Any, scale: Any, minor: Any, err: Any) -> Any:
+    """max(minor unit, the amount's significant places), as money.charge_places."""
+    if amount % _pow10(scale - minor, err) == 0:
+        return minor
+    return max(minor, _places(amount, scale))
+
+
+@inline
+def _round_div(num: Any, den: Any, half_up: Any) -> Any:
+    """``num / den`` (den > 0) rounded to an integer, half-even or half away from zero."""
+    q = num // den
+    r = num - q * den
+    if r > den - r or (r == den - r and ((q >= 0) if half_up else (q % 2 == 1))):
+        q += 1
+    return q
+
+
+@jit
+def _prorata(balance: Any, part: Any, whole: Any, scale: Any, places: Any, err: Any) -> Any:
+    """money.prorata at ``scale``: the share of ``balance`` that leaves with ``part`` of ``whole``,
+    rounded half-even to ``places``; the whole takes the balance itself."""
+    if part == whole:
+        return balance
+    factor = _pow10(scale - places, err)
+    den = _mul(whole, factor, err)
+    if den <= 0:
+        return 0
+    share = _round_div(_mul(balance, part, err), den, False)
+    return _mul(share, factor, err)
+
+
+@jit
+def _charge_prorata(balance: Any, part: Any, whole: Any, scale: Any, minor: Any, err: Any) -> Any:
+    """The share of a lot's unrealized charge, at the charge's own places (money.charge_places)."""
+    if part == whole or balance == 0:
+        return balance
+    places = _charge_places(balance, scale, minor, err)
+    return _prorata(balance, part, whole, scale, places, err)
+
+
+@jit
+def _allocate(
+    amount: Any, weights: Any, count: Any, scale: Any, minor: Any, out: Any, rem: Any, err: Any
+) -> None:
+    """money.allocate of ``amount`` over ``weights[:count]`` at the charge's places, into ``out``.
+
+    Units left after flooring go to the largest remainders; equal remainders to the earlier weight.
+    """
+    if count == 1 or amount == 0:
+        out[0] = amount
+        for i in range(1, count):
+            out[i] = 0
+        return
+    places = _charge_places(amount, scale, minor, err)
+    factor = _pow10(scale - places, err)
+    units = abs(amount) // factor
+    sign = -1 if amount < 0 else 1
+    total = 0
+    for i in range(count):
+        total = _add(total, weights[i], err)
+    if total <= 0:
+        err[0] = 1
+        return
+    left = units
+    for i in range(count):
+        if units == 0:
+            out[i] = 0
+            rem[i] = 0
+            continue
+        num = _mul(units, weights[i], err)
+        floor = num // total
+        out[i] = floor
+        rem[i] = num - floor * total
+        left -= floor
+    if left > 0:
+        if left * count <= 4096:
+            for _ in range(left):
+                best = -1
+                for i in range(count):
+                    if rem[i] >= 0 and (best < 0 or rem[i] > rem[best]):
+                        best = i
+                out[best] += 1
+                rem[best] = -1
+        else:
+            order = np.argsort(-rem[:count], kind="mergesort")
+            for n in range(left):
+                out[order[n]] += 1
+    for i in range(count):
+        out[i] = _mul(sign * out[i], factor, err)
+
+
+@inline
+def _hifo_before(price: Any, seq: Any, a: Any, b: Any, direction: Any) -> Any:
+    """Whether lot ``a`` closes before lot ``b`` under hifo: the least gain first, ties oldest."""
+    pa_, pb = direction * price[a], direction * price[b]
+    return pa_ > pb or (pa_ == pb and seq[a] < seq[b])
+
+
+@jit
+def _heap_push(heap: Any, size: Any, slot: Any, price: Any, seq: Any, direction: Any) -> Any:
+    i = size
+    heap[i] = slot
+    while i > 0:
+        parent = (i - 1) // 2
+        if _hifo_before(price, seq, heap[i], heap[parent], direction):
+            heap[i], heap[parent] = heap[parent], heap[i]
+            i = parent
+        else:
+            break
+    return size + 1
+
+
+@jit
+def _heap_pop(heap: Any, size: Any, price: Any, seq: Any, direction: Any) -> Any:
+    size -= 1
+    heap[0] = heap[size]
+    i = 0
+    while True:
+        left, right, best = 2 * i + 1, 2 * i + 2, i
+        if left < size and _hifo_before(price, seq, heap[left], heap[best], direction):
+            best = left
+        if right < size and _hifo_before(price, seq, heap[right], heap[best], direction):
+            best = right
+        if best == i:
+            return size
+        heap[i], heap[best] = heap[best], heap[i]
+        i = best
+
+
+@jit
+def replay_keys(
+    method: Any,
+    at_close: Any,
+    k_fill: Any,
+    k_fin: Any,
+    k_open: Any,
+    k_minor: Any,
+    k_qs: Any,
+    k_ps: Any,
+    k_ms: Any,
+    k_ws: Any,
+    k_mult: Any,
+    k_status: Any,
+    f_time: Any,
+    f_sign: Any,
+    f_qty: Any,
+    f_price: Any,
+    f_comm: Any,
+    f_row: Any,
+    e_time: Any,
+    e_amount: Any,
+    e_row: Any,
+    o_time: Any,
+    o_dir: Any,
+    o_qty: Any,
+    o_price: Any,
+    o_cost: Any,
+    o_comm: Any,
+    o_fin: Any,
+    o_row: Any,
+    n_fill_rows: Any,
+    p_int: Any,
+    p_time: Any,
+    t_int: Any,
+    t_time: Any,
+    l_int: Any,
+    l_time: Any,
+    k_out: Any,
+    u_row: Any,
+    counts: Any,
+) -> None:
+    """Replay every key; write pieces, trips, open lots, positions and unattributed rows.
+
+    ``k_fill``/``k_fin``/``k_open`` hold per-key offsets (K + 1 entries) into the sorted fills,
+    financing and opening lots. Output rows go into the preallocated 2-D integer arrays (columns
+    named in :mod:`reconcile.fast.layout`); ``counts`` receives the row count of each table.
+    ``k_status`` is OK or OVERFLOW per key on the way in (keys already known not to fit are
+    skipped) and on the way out.
+    """
+    keys = len(k_minor)
+    err = np.zeros(1, dtype=np.int64)
+    cap = 1
+    for k in range(keys):
+        cap = max(cap, k_fill[k + 1] - k_fill[k] + k_open[k + 1] - k_open[k] + 1)
+    lot_src = np.zeros(cap, dtype=np.int64)
+    lot_time = np.zeros(cap, dtype=np.int64)
+    lot_qty = np.zeros(cap, dtype=np.int64)
+    lot_price = np.zeros(cap, dtype=np.int64)
+    lot_cost = np.zeros(cap, dtype=np.int64)
+    lot_comm = np.zeros(cap, dtype=np.int64)
+    lot_fin = np.zeros(cap, dtype=np.int64)
+    lot_seq = np.zeros(cap, dtype=np.int64)
+    alive = np.zeros(cap, dtype=np.bool_)
+    heap = np.zeros(cap, dtype=np.int64)
+    closing = np.zeros(cap, dtype=np.int64)
+    takes = np.zeros(cap, dtype=np.int64)
+    shares = np.zeros(cap, dtype=np.int64)
+    rem = np.zeros(cap, dtype=np.int64)
+    n_p, n_t, n_l, n_u = 0, 0, 0, 0
+    for k in range(keys):
+        if k_status[k] != OK:
+            continue
+        start_p, start_t, start_l, start_u = n_p, n_t, n_l, n_u
+        err[0] = 0
+        minor, qs, ps, ms, ws = k_minor[k], k_qs[k], k_ps[k], k_ms[k], k_ws[k]
+        mult = k_mult[k]
+        value_shift = ws - (qs + ps + ms)
+        value_factor = _pow10(value_shift, err)
+        head, tail, heap_size, seq = 0, 0, 0, 0
+        position = 0  # absolute quantity open
+        direction = 0
+        trip_open = False
+        trips_local = 0
+        t_dir, t_open_time, t_fills = 0, 0, 0
+        t_maxq, t_entry_q, t_entry_v, t_exit_q, t_exit_v = 0, 0, 0, 0, 0
+        t_gross, t_comm, t_fin = 0, 0, 0
+        sum_gross, sum_charges, sum_fin, paid, booked, unattributed = 0, 0, 0, 0, 0, 0
+        # Carried-in lots first, in (open_time, input order).
+        for o in range(k_open[k], k_open[k + 1]):
+            if direction == 0:
+                direction = o_dir[o]
+                trip_open = True
+                t_dir, t_open_time, t_fills = direction, o_time[o], 0
+                t_maxq, t_entry_q, t_entry_v, t_exit_q, t_exit_v = 0, 0, 0, 0, 0
+                t_gross, t_comm, t_fin = 0, 0, 0
+            t_entry_q = _add(t_entry_q, o_qty[o], err)
+            t_entry_v = _add(t_entry_v, _mul(o_qty[o], o_price[o], err), err)
+            t_comm = _add(t_comm, o_comm[o], err)
+            t_fin = _add(t_fin, o_fin[o], err)
+            seq += 1
+            if method == AVERAGE and tail > 0:
+                lot_qty[0] = _add(lot_qty[0], o_qty[o], err)
+                lot_cost[0] = _add(lot_cost[0], o_cost[o], err)
+                lot_comm[0] = _add(lot_comm[0], o_comm[o], err)
+                lot_fin[0] = _add(lot_fin[0], o_fin[o], err)
+            else:
+                slot = tail
+                tail += 1
+                lot_src[slot] = n_fill_rows + o_row[o]
+                lot_time[slot] = o_time[o]
+                lot_qty[slot] = o_qty[o]
+                lot_price[slot] = o_price[o]
+                lot_cost[slot] = o_cost[o]
+                lot_comm[slot] = o_comm[o]
+                lot_fin[slot] = o_fin[o]
+                lot_seq[slot] = seq
+                alive[slot] = True
+                if method == HIFO:
+                    heap_size = _heap_push(heap, heap_size, slot, lot_price, lot_seq, direction)
+            position = _add(position, o_qty[o], err)
+            t_maxq = max(t_maxq, position)
+        i, j = k_fill[k], k_fin[k]
+        while (i < k_fill[k + 1] or j < k_fin[k + 1]) and err[0] == 0:
+            if j < k_fin[k + 1] and (i >= k_fill[k + 1] or e_time[j] <= f_time[i]):
+                amount = e_amount[j]
+                booked = _add(booked, amount, err)
+                if position == 0:
+                    u_row[n_u] = e_row[j]
+                    n_u += 1
+                    unattributed = _add(unattributed, amount, err)
+                else:
+                    count = 0
+                    for s in range(head, tail):
+                        if alive[s]:
+                            takes[count] = lot_qty[s]
+                            closing[count] = s
+                            count += 1
+                    _allocate(amount, takes, count, ws, minor, shares, rem, err)
+                    for n in range(count):
+                        lot_fin[closing[n]] = _add(lot_fin[closing[n]], shares[n], err)
+                    t_fin = _add(t_fin, amount, err)
+                j += 1
+                continue
+            sign, quantity, price, commission = f_sign[i], f_qty[i], f_price[i], f_comm[i]
+            left = quantity
+            count = 0
+            if direction != 0 and sign != direction:
+                while left > 0 and head < tail:
+                    if method == FIFO:
+                        s = head
+                    elif method == HIFO:
+                        s = heap[0]
+                    elif method == LIFO:
+                        s = tail - 1
+                    else:
+                        s = 0
+                    take = min(lot_qty[s], left)
+                    closing[count] = s
+                    takes[count] = take
+                    count += 1
+                    left -= take
+                    if take < lot_qty[s]:
+                        break
+                    # A lot about to close fully leaves the closing order now; the next one follows.
+                    if method == FIFO:
+                        head = s + 1
+                    elif method == LIFO:
+                        tail -= 1
+                    elif method == HIFO:
+                        heap_size = _heap_pop(heap, heap_size, lot_price, lot_seq, direction)
+                        if heap_size == 0:
+                            head = tail
+                    else:
+                        head = tail
+            weights = count
+            if left > 0:
+                takes[count] = left
+                weights += 1
+            _allocate(commission, takes, weights, ws, minor, shares, rem, err)
+            paid = _add(paid, commission, err)
+            if count > 0:
+                t_fills += 1
+            for n in range(count):
+                s, take, close_comm = closing[n], takes[n], shares[n]
+                whole = lot_qty[s]
+                if method == AVERAGE:
+                    open_price = lot_cost[s]  # the pool's average is cost / (whole x multiplier)
+                    relieved = _prorata(lot_cost[s], take, whole, ws, minor, err)
+                else:
+                    open_price = lot_price[s]
+                    if take == whole:
+                        relieved = lot_cost[s]
+                    else:
+                        relieved = _mul(
+                            _mul(_mul(take, lot_price[s], err), mult, err), value_factor, err
+                        )
+                proceeds = _mul(_mul(_mul(take, price, err), mult, err), value_factor, err)
+                gross = _add(proceeds, -relieved, err) * direction
+                open_comm = _charge_prorata(lot_comm[s], take, whole, ws, minor, err)
+                fin = _charge_prorata(lot_fin[s], take, whole, ws, minor, err)
+                reported_comm = _add(close_comm, open_comm, err) if at_close else close_comm
+                reported_fin = fin if at_close else 0
+                row = p_int[n_p]
+                row[0] = k
+                row[1] = lot_src[s]
+                row[2] = f_row[i]
+                row[3] = take
+                row[4] = open_price
+                row[5] = gross
+                row[6] = whole
+                row[7] = reported_comm
+                row[8] = reported_fin
+                row[10] = trips_local
+                row[11] = direction
+                p_time[n_p, 0] = lot_time[s]
+                p_time[n_p, 1] = f_time[i]
+                n_p += 1
+                t_exit_q = _add(t_exit_q, take, err)
+                t_exit_v = _add(t_exit_v, _mul(take, price, err), err)
+                t_gross = _add(t_gross, gross, err)
+                t_comm = _add(t_comm, close_comm, err)
+                sum_gross = _add(sum_gross, gross, err)
+                sum_charges = _add(sum_charges, _add(open_comm, close_comm, err), err)
+                sum_fin = _add(sum_fin, fin, err)
+                lot_qty[s] = whole - take
+                lot_cost[s] = _add(lot_cost[s], -relieved, err)
+                lot_comm[s] = _add(lot_comm[s], -open_comm, err)
+                lot_fin[s] = _add(lot_fin[s], -fin, err)
+                position -= take
+                if lot_qty[s] == 0:
+                    alive[s] = False
+            if count > 0 and position == 0:
+                row = t_int[n_t]
+                row[0] = k
+                row[1] = t_dir
+                row[2] = t_maxq
+                row[3] = t_entry_v
+                row[4] = t_exit_v
+                row[5] = t_fills
+                row[6] = t_gross
+                row[7] = t_comm
+                row[8] = t_fin
+                row[9] = t_entry_q
+                row[10] = trips_local
+                row[11] = t_exit_q
+                t_time[n_t, 0] = t_open_time
+                t_time[n_t, 1] = f_time[i]
+                n_t += 1
+                trips_local += 1
+                trip_open = False
+                direction = 0
+                head, tail, heap_size = 0, 0, 0
+            if left > 0:
+                if direction == 0:
+                    direction = sign
+                    trip_open = True
+                    t_dir, t_open_time, t_fills = sign, f_time[i], 0
+                    t_maxq, t_entry_q, t_entry_v, t_exit_q, t_exit_v = 0, 0, 0, 0, 0
+                    t_gross, t_comm, t_fin = 0, 0, 0
+                open_comm = shares[weights - 1]
+                t_fills += 1
+                t_entry_q = _add(t_entry_q, left, err)
+                t_entry_v = _add(t_entry_v, _mul(left, price, err), err)
+                t_comm = _add(t_comm, open_comm, err)
+                cost = _mul(_mul(_mul(left, price, err), mult, err), value_factor, err)
+                seq += 1
+                if method == AVERAGE and tail > 0:
+                    lot_qty[0] = _add(lot_qty[0], left, err)
+                    lot_cost[0] = _add(lot_cost[0], cost, err)
+                    lot_comm[0] = _add(lot_comm[0], open_comm, err)
+                else:
+                    if method == AVERAGE:
+                        head = 0
+                    slot = tail
+                    tail += 1
+                    lot_src[slot] = f_row[i]
+                    lot_time[slot] = f_time[i]
+                    lot_qty[slot] = left
+                    lot_price[slot] = price
+                    lot_cost[slot] = cost
+                    lot_comm[slot] = open_comm
+                    lot_fin[slot] = 0
+                    lot_seq[slot] = seq
+                    alive[slot] = True
+                    if method == HIFO:
+                        heap_size = _heap_push(heap, heap_size, slot, lot_price, lot_seq, direction)
+                position = _add(position, left, err)
+                t_maxq = max(t_maxq, position)
+            i += 1
+        # What is still open, then the key's position.
+        cost_open, lots_open = 0, 0
+        for s in range(head, tail):
+            if not alive[s]:
+                continue
+            lots_open += 1
+            cost_open = _add(cost_open, lot_cost[s], err)
+            row = l_int[n_l]
+            row[0] = k
+            row[1] = lot_src[s]
+            row[2] = lot_qty[s]
+            row[3] = lot_cost[s] if method == AVERAGE else lot_price[s]
+            row[4] = lot_comm[s] if at_close else 0
+            row[5] = lot_fin[s] if at_close else 0
+            row[6] = lot_cost[s]
+            row[7] = trips_local
+            row[8] = direction
+            l_time[n_l] = lot_time[s]
+            n_l += 1
+        if at_close:
+            commission_total = sum_charges
+            financing_total = _add(sum_fin, unattributed, err)
+        else:
+            commission_total, financing_total = paid, booked
+        out = k_out[k]
+        out[0] = position * direction
+        out[1] = cost_open
+        out[2] = position
+        out[3] = sum_gross
+        out[4] = commission_total
+        out[5] = financing_total
+        out[7] = lots_open
+        out[8] = trips_local + (1 if trip_open else 0)
+        if err[0] != 0:
+            k_status[k] = OVERFLOW
+            n_p, n_t, n_l, n_u = start_p, start_t, start_l, start_u
+    counts[0], counts[1], counts[2], counts[3] = n_p, n_t, n_l, n_u
+
+
+@jit
+def group_by_key(keys: Any, key_count: Any) -> Any:
+    """A stable counting sort: the order that groups rows by key, keeping their order within a
+    key (linear time, for feeds already in time order)."""
+    starts = np.zeros(key_count + 1, dtype=np.int64)
+    for n in range(len(keys)):
+        starts[keys[n] + 1] += 1
+    for k in range(key_count):
+        starts[k + 1] += starts[k]
+    order = np.empty(len(keys), dtype=np.int64)
+    for n in range(len(keys)):
+        k = keys[n]
+        order[starts[k]] = n
+        starts[k] += 1
+    return order

@@ -1,0 +1,208 @@
+"""Arrow decimals to scaled int64 and back, exactly and vectorised.
+
+A decimal column becomes the integers it stores (its unscaled values) at the column's scale; a value
+that does not fit comfortably in 64 bits is flagged, never wrapped. On the way back a column of
+integers, each at its own scale, becomes one Arrow decimal column at the largest scale, typed with
+the narrowest precision its values need (as :func:`reconcile.core.frames.tight_decimal_type` does).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+
+#: Values are kept below 2**62 on the way in, so no kernel sum of two inputs can reach 2**63.
+INPUT_LIMIT = 2**62
+LIMIT = 2**63 - 1
+POW10 = np.array([10**k for k in range(19)], dtype=np.int64)
+
+
+def unscaled(values: pa.Array | pa.ChunkedArray) -> tuple[np.ndarray, int, np.ndarray]:
+    """(integers, scale, fits): the unscaled values of a decimal column; nulls read as 0."""
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks() if values.num_chunks != 1 else values.chunk(0)
+    kind = values.type
+    if pa.types.is_decimal256(kind):
+        narrow = pa.decimal128(min(kind.precision, 38), kind.scale)
+        try:
+            values = values.cast(narrow)
+        except pa.ArrowInvalid:
+            return np.zeros(len(values), np.int64), kind.scale, np.zeros(len(values), bool)
+    if not pa.types.is_decimal(values.type):
+        raise TypeError(f"expected a decimal column, got {values.type}")
+    words = np.frombuffer(values.buffers()[1], dtype=np.int64)
+    words = words[2 * values.offset : 2 * (values.offset + len(values))].reshape(-1, 2)
+    low, high = words[:, 0], words[:, 1]
+    fits = (high == (low >> 63)) & (low < INPUT_LIMIT) & (low > -INPUT_LIMIT)
+    ints = np.where(fits, low, 0)
+    if values.null_count:
+        valid = np.asarray(values.is_valid().to_numpy(zero_copy_only=False), dtype=bool)
+        ints = np.where(valid, ints, 0)
+        fits |= ~valid
+    return ints, values.type.scale, fits
+
+
+def significant_places(values: np.ndarray, scale: int) -> np.ndarray:
+    """Decimal places each value needs (money.significant_places): 1.500 needs 1, 100 none."""
+    places = np.full(len(values), scale, dtype=np.int64)
+    rest = values.copy()
+    for _ in range(scale):
+        whole = (rest % 10 == 0) & (places > 0)
+        if not whole.any():
+            break
+        rest = np.where(whole, rest // 10, rest)
+        places -= whole
+    return places
+
+
+def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Values at ``scale`` moved to per-row ``target`` scales: (integers, did not fit).
+
+    Moving down must be exact (the target is at least each value's significant places).
+    """
+    shift = target.astype(np.int64) - scale
+    out = values.copy()
+    down = shift < 0
+    if down.any():
+        out[down] = values[down] // POW10[np.minimum(-shift[down], 18)]
+    up = shift > 0
+    bad = np.zeros(len(values), dtype=bool)
+    if up.any():
+        factor = POW10[np.minimum(shift[up], 18)]
+        limit = LIMIT // factor
+        overflow = (np.abs(values[up]) > limit) | ((shift[up] > 18) & (values[up] != 0))
+        bad[up] = overflow
+        out[up] = np.where(overflow, 0, values[up] * np.where(overflow, 1, factor))
+    return out, bad
+
+
+def checked_mul(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Elementwise a x b with the rows that would leave the int64 range flagged (and zeroed)."""
+    magnitude = np.maximum(np.abs(a), 1)
+    bad = np.abs(b) > LIMIT // magnitude
+    return np.where(bad, 0, a * np.where(bad, 0, b)), bad
+
+
+def digits(values: np.ndarray) -> np.ndarray:
+    """Decimal digits of each |value| (0 for zero), by exact comparison with powers of ten."""
+    found: np.ndarray = np.searchsorted(POW10, np.abs(values), side="right")
+    return found
+
+
+def to_decimal(
+    values: np.ndarray, scales: np.ndarray | int, valid: np.ndarray | None = None
+) -> pa.Array:
+    """One Arrow decimal column from integers each at its own scale, at the narrowest type."""
+    values = np.asarray(values, dtype=np.int64)
+    row_scales = np.broadcast_to(np.asarray(scales, dtype=np.int64), values.shape)
+    if not len(values):
+        return pa.array([], pa.decimal128(1, 0))
+    scale, lowest = int(row_scales.max()), int(row_scales.min())
+    raised, bad = values, np.zeros(1, bool)
+    if lowest < scale and scale - lowest <= 18:
+        raised, bad = checked_mul(values, POW10[np.minimum(scale - row_scales, 18)])
+    if lowest == scale or (not bad.any() and scale - lowest <= 18):
+        present = raised if valid is None else raised[valid]
+        largest = int(np.abs(present).max()) if len(present) else 0
+        whole = max(len(str(largest)) - scale, 1) if largest else 1
+        if whole + scale <= 38:
+            return _from_ints(raised, pa.decimal128(whole + scale, scale), valid)
+    return _mixed_scales(values, row_scales, valid)
+
+
+def _mixed_scales(values: np.ndarray, row_scales: np.ndarray, valid: np.ndarray | None) -> pa.Array:
+    """The rare column whose values, brought to one scale, would not fit in 64 bits."""
+    scale = int(row_scales.max())
+    present = values if valid is None else values[valid]
+    present_scales = row_scales if valid is None else row_scales[valid]
+    int_digits = int((digits(present) - present_scales).max()) if len(present) else 1
+    kind = _decimal_type(max(int_digits, 1) + scale, scale)
+    distinct = np.unique(row_scales)
+    order = np.argsort(row_scales, kind="stable")
+    parts = []
+    for s in distinct:
+        rows = order[row_scales[order] == s]
+        part_valid = None if valid is None else valid[rows]
+        parts.append(_from_ints(values[rows], pa.decimal128(38, int(s)), part_valid).cast(kind))
+    inverse = np.empty_like(order)
+    inverse[order] = np.arange(len(order))
+    return pa.concat_arrays(parts).take(pa.array(inverse))
+
+
+def _decimal_type(precision: int, scale: int) -> pa.DataType:
+    if precision <= 38:
+        return pa.decimal128(precision, scale)
+    return pa.decimal256(precision, scale)
+
+
+def _from_ints(values: np.ndarray, kind: pa.DataType, valid: np.ndarray | None) -> pa.Array:
+    """A decimal128 array over the integers (which must fit ``kind``), without a cast."""
+    words = np.empty((len(values), 2), dtype=np.int64)
+    words[:, 0] = values
+    words[:, 1] = values >> 63
+    validity = None
+    if valid is not None and not valid.all():
+        validity = pa.array(valid).buffers()[1]
+    return pa.Array.from_buffers(kind, len(values), [validity, pa.py_buffer(words)])
+
+
+def ints_of(values: pa.Array | pa.ChunkedArray) -> np.ndarray:
+    """An integer or timestamp column as int64 (nulls as 0)."""
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks()
+    if pa.types.is_timestamp(values.type) or pa.types.is_duration(values.type):
+        values = values.cast(pa.int64())
+    return np.asarray(pc.fill_null(values, 0).to_numpy(zero_copy_only=False), dtype=np.int64)
+
+
+def checked_add(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Elementwise a + b with the rows that would leave the int64 range flagged (and zeroed)."""
+    bad = ((b > 0) & (a > LIMIT - b)) | ((b < 0) & (a < -LIMIT - b))
+    return np.where(bad, 0, a + np.where(bad, 0, b)), bad
+
+
+def round_to_places(
+    values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
+    """Values at ``scale`` rounded to ``places`` (half-even, or half away from zero), as
+    integers at ``places``: money.round_to, elementwise."""
+    shift = np.asarray(scale - places, np.int64)
+    up_factor = POW10[np.clip(-shift, 0, 18)]
+    raised, bad = checked_mul(values, up_factor)
+    den = POW10[np.clip(shift, 0, 18)]
+    q = values // den
+    r = values - q * den
+    tie_up = (q >= 0) if half_up else (q % 2 == 1)
+    q = q + ((r > den - r) | ((r == den - r) & tie_up))
+    out = np.where(shift > 0, q, raised)
+    return out, bad | (np.abs(shift) > 18)
+
+
+def ratio(
+    num: np.ndarray,
+    num_scale: np.ndarray,
+    den: np.ndarray,
+    den_scale: np.ndarray,
+    places: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """``(num / 10**num_scale) / (den / 10**den_scale)`` rounded half-even to ``places``, as
+    integers at ``places`` (money.divide), by long division so no wide product is formed."""
+    num = np.asarray(num, np.int64)
+    shift = np.asarray(den_scale + places - num_scale, np.int64) + np.zeros(len(num), np.int64)
+    den, bad = checked_mul(np.asarray(den, np.int64), POW10[np.clip(-shift, 0, 18)])
+    bad |= (den <= 0) | (den > LIMIT // 10) | (shift < -18)
+    den = np.where(bad, 1, den)
+    a = np.abs(num)
+    whole, rest = a // den, a % den
+    for step in range(int(shift.max()) if len(shift) else 0):
+        active = step < shift
+        rest = rest * 10
+        digit = rest // den
+        grown, over = checked_mul(whole, np.full(len(whole), 10, np.int64))
+        grown, over2 = checked_add(grown, digit)
+        bad |= active & (over | over2)
+        whole = np.where(active, grown, whole)
+        rest = np.where(active, rest - digit * den, rest // 10)
+    whole = whole + ((rest > den - rest) | ((rest == den - rest) & (whole % 2 == 1)))
+    return np.where(num < 0, -whole, whole), bad

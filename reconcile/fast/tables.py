@@ -1,0 +1,210 @@
+"""The kernel's integer rows to the Book's Arrow tables, column by column (no per-row Python).
+
+Each table carries a private ``_key`` column (the key's place in sorted order) until the rows the
+reference engine produced for keys that did not fit are merged in.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from reconcile import schema
+from reconcile.fast import kernel
+from reconcile.fast.prepare import Prepared
+from reconcile.fast.scaled import ints_of, to_decimal
+
+KEY = "_key"
+TIME = pa.timestamp("ns", tz="UTC")
+DIRECTIONS = pa.array(["short", "long"], pa.string())
+UNATTRIBUTED_REASON = "no open position at the event time"
+
+
+@dataclass
+class KernelOutput:
+    pieces: np.ndarray
+    piece_times: np.ndarray
+    trips: np.ndarray
+    trip_times: np.ndarray
+    lots: np.ndarray
+    lot_times: np.ndarray
+    keys: np.ndarray
+    unattributed: np.ndarray
+
+    def without(self, dropped: np.ndarray, financing_keys: np.ndarray) -> KernelOutput:
+        """The output less every row of the keys marked in ``dropped``."""
+        p, t, lots = (~dropped[a[:, 0]] for a in (self.pieces, self.trips, self.lots))
+        u = ~dropped[financing_keys[self.unattributed]]
+        return KernelOutput(
+            self.pieces[p],
+            self.piece_times[p],
+            self.trips[t],
+            self.trip_times[t],
+            self.lots[lots],
+            self.lot_times[lots],
+            self.keys,
+            self.unattributed[u],
+        )
+
+
+class TableBuilder:
+    """Shapes kernel output into the five tables of :mod:`reconcile.schema`."""
+
+    def __init__(
+        self,
+        prepared: Prepared,
+        out: KernelOutput,
+        derived: dict[str, np.ndarray],
+        trip_offsets: np.ndarray,
+    ) -> None:
+        self.p = prepared
+        self.out = out
+        self.d = derived
+        self.trip_offsets = trip_offsets
+        fills = prepared.sources["fills"].columns
+        opening = prepared.sources["opening"].columns
+        self.fill_ids = _plain(fills["fill_id"]) if fills else pa.array([], pa.string())
+        opened = _plain(opening["open_fill_id"]) if opening else pa.array([], pa.string())
+        self.lot_ids = pa.concat_arrays([self.fill_ids, opened])
+        self.fill_prices = fills["price"] if fills else pa.array([], pa.decimal128(1, 0))
+
+    def _key_columns(self, keys: np.ndarray) -> dict[str, pa.Array]:
+        index = pa.array(keys)
+        return {
+            "account": self.p.accounts.take(index),
+            "instrument": self.p.instruments.take(index),
+            "currency": self.p.currencies.take(index),
+        }
+
+    def _trip_ids(self, keys: np.ndarray, local: np.ndarray) -> pa.Array:
+        return pa.array(self.trip_offsets[keys] + local + 1, pa.int64())
+
+    def _open_price(self, values: np.ndarray, keys: np.ndarray, average: bool) -> pa.Array:
+        scales = kernel.AVERAGE_PLACES if average else self.p.key["ps"][keys]
+        return to_decimal(values, scales)
+
+    def closed_lots(self, average: bool) -> pa.Table:
+        rows, times = self.out.pieces, self.out.piece_times
+        keys = rows[:, 0]
+        ws, minor = self.p.key["ws"][keys], self.p.key["minor"][keys]
+        columns = {
+            **self._key_columns(keys),
+            "direction": DIRECTIONS.take(pa.array((rows[:, 11] > 0).astype(np.int64))),
+            "open_fill_id": self.lot_ids.take(pa.array(rows[:, 1])),
+            "close_fill_id": self.fill_ids.take(pa.array(rows[:, 2])),
+            "open_time": _times(times[:, 0]),
+            "close_time": _times(times[:, 1]),
+            "quantity": to_decimal(rows[:, 3], self.p.key["qs"][keys]),
+            "open_price": self._open_price(self.d["piece_open_price"], keys, average),
+            "close_price": self.fill_prices.take(pa.array(rows[:, 2])),
+            "gross_pnl": to_decimal(self.d["piece_gross"], minor),
+            "commission": to_decimal(rows[:, 7], ws),
+            "financing": to_decimal(rows[:, 8], ws),
+            "net_pnl": to_decimal(self.d["piece_net"], minor),
+            "multiplier": self._multiplier(keys),
+            "gross_pnl_unrounded": to_decimal(rows[:, 5], ws),
+            "trip_id": self._trip_ids(keys, rows[:, 10]),
+        }
+        return _table(columns, schema.CLOSED_LOTS, keys)
+
+    def round_trips(self) -> pa.Table:
+        rows, times = self.out.trips, self.out.trip_times
+        keys = rows[:, 0]
+        minor = self.p.key["minor"][keys]
+        columns = {
+            "trip_id": self._trip_ids(keys, rows[:, 10]),
+            **self._key_columns(keys),
+            "direction": DIRECTIONS.take(pa.array((rows[:, 1] > 0).astype(np.int64))),
+            "open_time": _times(times[:, 0]),
+            "close_time": _times(times[:, 1]),
+            "max_quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
+            "entry_price": to_decimal(self.d["trip_entry"], kernel.AVERAGE_PLACES),
+            "exit_price": to_decimal(self.d["trip_exit"], kernel.AVERAGE_PLACES),
+            "fills": pa.array(rows[:, 5], pa.int64()),
+            "gross_pnl": to_decimal(self.d["trip_gross"], minor),
+            "commission": to_decimal(self.d["trip_commission"], minor),
+            "financing": to_decimal(self.d["trip_financing"], minor),
+            "net_pnl": to_decimal(self.d["trip_net"], minor),
+            "holding_time": pa.array(times[:, 1] - times[:, 0], pa.int64()).view(pa.duration("ns")),
+        }
+        return _table(columns, schema.ROUND_TRIPS, keys)
+
+    def open_lots(self, average: bool) -> pa.Table:
+        rows = self.out.lots
+        keys = rows[:, 0]
+        ws = self.p.key["ws"][keys]
+        columns = {
+            **self._key_columns(keys),
+            "direction": DIRECTIONS.take(pa.array((rows[:, 8] > 0).astype(np.int64))),
+            "open_fill_id": self.lot_ids.take(pa.array(rows[:, 1])),
+            "open_time": _times(self.out.lot_times),
+            "quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
+            "open_price": self._open_price(self.d["lot_open_price"], keys, average),
+            "commission": to_decimal(rows[:, 4], ws),
+            "financing": to_decimal(rows[:, 5], ws),
+            "multiplier": self._multiplier(keys),
+            "cost_basis": to_decimal(rows[:, 6], ws),
+            "trip_id": self._trip_ids(keys, rows[:, 7]),
+        }
+        return _table(columns, schema.OPEN_LOTS, keys)
+
+    def positions(self, keys: np.ndarray) -> pa.Table:
+        rows = self.out.keys[keys]
+        minor = self.p.key["minor"][keys]
+        columns = {
+            **self._key_columns(keys),
+            "multiplier": self._multiplier(keys),
+            "quantity": to_decimal(rows[:, 0], self.p.key["qs"][keys]),
+            "average_price": to_decimal(
+                self.d["key_average"][keys], kernel.AVERAGE_PLACES, rows[:, 2] > 0
+            ),
+            "realized_gross": to_decimal(self.d["key_gross"][keys], minor),
+            "commission": to_decimal(self.d["key_commission"][keys], minor),
+            "financing": to_decimal(self.d["key_financing"][keys], minor),
+            "realized_net": to_decimal(self.d["key_net"][keys], minor),
+            "open_lots": pa.array(rows[:, 7], pa.int64()),
+        }
+        return _table(columns, schema.POSITIONS, keys)
+
+    def unattributed(self) -> pa.Table:
+        source = self.p.sources["financing"]
+        rows = self.out.unattributed
+        keys = source.keys[rows]
+        columns: dict[str, pa.Array] = {
+            name: source.columns[name].take(pa.array(rows))
+            for name in ("event_id", "account", "instrument", "amount", "currency", "kind")
+            if name in source.columns
+        }
+        if not columns:
+            columns = {n: pa.array([], pa.string()) for n in ("event_id", "account", "instrument")}
+            columns |= {"currency": pa.array([], pa.string()), "kind": pa.array([], pa.string())}
+            columns["amount"] = pa.array([], pa.decimal128(1, 0))
+            columns["time"] = pa.array([], TIME)
+        else:
+            columns["time"] = _times(ints_of(source.columns["time"])[rows])
+        columns["reason"] = pa.array([UNATTRIBUTED_REASON] * len(rows), pa.string())
+        return _table(columns, schema.UNATTRIBUTED, keys)
+
+    def _multiplier(self, keys: np.ndarray) -> pa.Array:
+        return to_decimal(self.p.key["mult"][keys], self.p.key["ms"][keys])
+
+
+def _times(values: np.ndarray) -> pa.Array:
+    return pa.array(np.asarray(values, np.int64), pa.int64()).view(TIME)
+
+
+def _table(columns: dict[str, pa.Array], names: tuple[str, ...], keys: np.ndarray) -> pa.Table:
+    arrays = [_plain(columns[n]) for n in names]
+    arrays.append(pa.array(np.asarray(keys, np.int64), pa.int64()))
+    return pa.Table.from_arrays(arrays, names=[*names, KEY])
+
+
+def _plain(values: pa.Array | pa.ChunkedArray) -> pa.Array:
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks()
+    if pa.types.is_large_string(values.type):
+        return pc.cast(values, pa.string())
+    return values
