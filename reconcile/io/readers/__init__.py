@@ -6,10 +6,23 @@ from pathlib import Path
 
 import pandas as pd
 
-from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
+from reconcile.core.canon import (
+    canonical_fills,
+    canonical_financing,
+    canonical_opening,
+    canonical_rates,
+    canonical_statement,
+)
 from reconcile.io.readers.tabular import read_table
 
-__all__ = ["read_fills", "read_financing", "read_opening", "read_table"]
+__all__ = [
+    "read_fills",
+    "read_financing",
+    "read_opening",
+    "read_rates",
+    "read_statement",
+    "read_table",
+]
 
 
 def read_fills(
@@ -42,3 +55,17 @@ def read_opening(
     """Read open lots carried in from an earlier period (the ``open_lots`` table of ``match``)."""
     raw = read_table(path, input_format)
     return canonical_opening(raw, source=str(path), timezone=timezone)
+
+
+def read_statement(path: Path | str, *, input_format: str | None = None) -> pd.DataFrame:
+    """Read and validate a statement to tie out against (the columns of docs/formats.md)."""
+    raw = read_table(path, input_format)
+    return canonical_statement(raw, source=str(path))
+
+
+def read_rates(
+    path: Path | str, *, timezone: str | None = None, input_format: str | None = None
+) -> pd.DataFrame:
+    """Read FX rates (time, base, quote or pair, rate, optional source) for ``--base``."""
+    raw = read_table(path, input_format)
+    return canonical_rates(raw, source=str(path), timezone=timezone)
