@@ -22,12 +22,20 @@ if TYPE_CHECKING:
     from reconcile.core.book import Book
     from reconcile.core.matching import match
     from reconcile.core.summary import currency_totals
-    from reconcile.io.readers import read_fills, read_financing, read_opening
+    from reconcile.core.tieout import TieOut, tie_out
+    from reconcile.io.readers import (
+        read_fills,
+        read_financing,
+        read_opening,
+        read_rates,
+        read_statement,
+    )
     from reconcile.io.writers.tables import write_tables
     from reconcile.money import allocate, minor_unit, round_money
 
 __all__ = [
     "Book",
+    "TieOut",
     "allocate",
     "currency_totals",
     "errors",
@@ -36,7 +44,10 @@ __all__ = [
     "read_fills",
     "read_financing",
     "read_opening",
+    "read_rates",
+    "read_statement",
     "round_money",
+    "tie_out",
     "write_tables",
 ]
 
@@ -52,6 +63,10 @@ _HOMES = {
     "read_opening": "reconcile.io.readers",
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
+    "TieOut": "reconcile.core.tieout",
+    "read_rates": "reconcile.io.readers",
+    "read_statement": "reconcile.io.readers",
+    "tie_out": "reconcile.core.tieout",
 }
 
 

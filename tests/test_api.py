@@ -19,6 +19,10 @@ PUBLIC = [
     "read_opening",
     "round_money",
     "write_tables",
+    "TieOut",
+    "read_rates",
+    "read_statement",
+    "tie_out",
 ]
 
 

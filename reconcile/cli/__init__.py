@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from reconcile.cli import match as _match  # noqa: F401  (registers the command)
+from reconcile.cli import tieout as _tieout  # noqa: F401  (registers the command)
 from reconcile.cli._app import app
 
 __all__ = ["app", "main"]

@@ -135,11 +135,13 @@ def tie_out(
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
     span = _period(period, timezone, cutoff)
+    base = base.strip().upper() if base is not None else None
     inputs = _Inputs.read(fills, financing, opening, statement, rates, timezone)
     book = _rate_book(inputs.rates, base, rate_source)
     rules = Tolerances(
         Tolerance(
-            _decimal(tolerance, "tolerance"), _decimal(relative_tolerance, "relative tolerance")
+            decimal_option(tolerance, "tolerance"),
+            decimal_option(relative_tolerance, "relative tolerance"),
         ),
         dict(tolerances or {}),
     )
@@ -189,7 +191,8 @@ def _period(period: PeriodSpec, timezone: str | None, cutoff: str | None) -> Per
     return make_period(period, timezone=zone_name, cutoff=cutoff)
 
 
-def _decimal(value: Decimal | int | str, option: str) -> Decimal:
+def decimal_option(value: Decimal | int | str, option: str) -> Decimal:
+    """A tolerance given as text or a number: an exact decimal >= 0, never a binary float."""
     try:
         number = Decimal(str(value).strip()) if not isinstance(value, Decimal) else value
     except ArithmeticError:

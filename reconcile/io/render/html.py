@@ -30,6 +30,8 @@ class Table:
     frame: pd.DataFrame
     limit: int = DEFAULT_ROW_LIMIT
     note: str = ""
+    #: Columns of text already formatted as numbers, aligned as numbers.
+    numeric_columns: Sequence[str] = ()
 
 
 @dataclass(frozen=True)
@@ -96,7 +98,9 @@ def _header(table: Table) -> list[str]:
 def _numeric(table: Table) -> list[bool]:
     frame = table.frame
     return [
-        isinstance(frame[c].dtype, pd.ArrowDtype) or pd.api.types.is_numeric_dtype(frame[c])
+        isinstance(frame[c].dtype, pd.ArrowDtype)
+        or pd.api.types.is_numeric_dtype(frame[c])
+        or c in table.numeric_columns
         for c in frame.columns
     ]
 

@@ -140,3 +140,13 @@ def _json_document(document: Any) -> Any:
 
 
 _WRITERS = {"csv": _csv, "parquet": _parquet, "json": _json}
+
+
+def table_writer(frame: pd.DataFrame, fmt: str) -> Any:
+    """A writer of one table in ``fmt``, for :meth:`atomic.FileSet.add` with other files."""
+    return _WRITERS[fmt](frame)
+
+
+def document_writer(document: Any) -> Any:
+    """A writer of one JSON document, for :meth:`atomic.FileSet.add` with other files."""
+    return _json_document(document)
