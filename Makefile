@@ -18,6 +18,10 @@ $(STAMP): pyproject.toml constraints.txt
 demo: $(STAMP)
 	$(BIN)/reconcile match sample_data/fills.csv --financing sample_data/financing.csv \
 		--out $(DEMO_OUT)/match
+	# The demo statement holds one planted break, so the tie-out exits 1; only 2 fails the demo.
+	$(BIN)/reconcile tie-out sample_data/fills.csv --financing sample_data/financing.csv \
+		--statement sample_data/statement.csv --period 2026-11 \
+		--timezone America/New_York --cutoff 17:00 --out $(DEMO_OUT)/tieout || [ $$? -eq 1 ]
 	@echo "Demo results are in $(DEMO_OUT)/"
 
 test: lint typecheck unit
@@ -37,6 +41,7 @@ benchmark: $(STAMP)
 
 sample-data: $(STAMP)
 	$(BIN)/python sample_data/generate.py
+	$(BIN)/python sample_data/make_statement.py
 
 clean:
 	rm -rf $(VENV) $(DEMO_OUT) .mypy_cache .pytest_cache .ruff_cache .hypothesis

@@ -20,6 +20,7 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
+    from reconcile.core.compare import Tolerance
     from reconcile.core.matching import match
     from reconcile.core.summary import currency_totals
     from reconcile.core.tieout import TieOut, tie_out
@@ -36,6 +37,7 @@ if TYPE_CHECKING:
 __all__ = [
     "Book",
     "TieOut",
+    "Tolerance",
     "allocate",
     "currency_totals",
     "errors",
@@ -64,6 +66,7 @@ _HOMES = {
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
     "TieOut": "reconcile.core.tieout",
+    "Tolerance": "reconcile.core.compare",
     "read_rates": "reconcile.io.readers",
     "read_statement": "reconcile.io.readers",
     "tie_out": "reconcile.core.tieout",

@@ -20,6 +20,7 @@ PUBLIC = [
     "round_money",
     "write_tables",
     "TieOut",
+    "Tolerance",
     "read_rates",
     "read_statement",
     "tie_out",

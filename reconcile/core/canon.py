@@ -594,7 +594,7 @@ def canonical_statement(frame: pd.DataFrame, *, source: str = "statement") -> pd
     """Validate and convert a broker's or clearing firm's statement (see docs/formats.md).
 
     A blank ``instrument`` makes an account-level line. Blank measures are not stated; each line
-    states at least one. ``result.attrs["measures"]`` lists the measure columns the file has, and
+    states at least one. ``result.attrs["measures"]`` lists the measures some line states, and
     ``average_price_places`` keeps the places each average price was written with (a statement
     shows a rounded average, so ours is compared at its places).
     """
@@ -625,7 +625,7 @@ def canonical_statement(frame: pd.DataFrame, *, source: str = "statement") -> pd
     result["average_price_places"] = _written_places(frame, "average_price")
     _check_statement_lines(check, result, measures)
     _raise(check)
-    result.attrs["measures"] = measures
+    result.attrs["measures"] = [m for m in measures if result[m].notna().any()]
     result.attrs["read_summary"] = {"source": source, "rows_read": len(frame)}
     return result
 
@@ -650,7 +650,10 @@ def _written_places(frame: pd.DataFrame, column: str) -> list[int]:
 
 def _check_statement_lines(check: _Checker, lines: pd.DataFrame, measures: list[str]) -> None:
     stated = lines[measures].notna()
+    unreadable = {p.row for p in check.problems if p.column in measures}
     for position in np.flatnonzero(~stated.any(axis=1).to_numpy()):
+        if int(check.rows[position]) in unreadable:
+            continue  # its value is already reported as bad
         check.problems.append(
             Problem(
                 check.source,
@@ -733,7 +736,14 @@ def canonical_rates(
         "rate": check.decimal("rate", rule=">0", expected="a decimal > 0"),
         "source": check.text("source", required=False),
     }
-    same = _positions(pc.equal(columns["base"], columns["quote"]))
+    if "pair_problem" in frame.columns:  # an unreadable pair is reported once, as the pair
+        rows = {int(check.rows[i]) for i in np.flatnonzero(frame["pair_problem"].to_numpy())}
+        check.problems = [
+            p for p in check.problems if not (p.column in ("base", "quote") and p.row in rows)
+        ]
+    same = _positions(
+        pc.and_(pc.equal(columns["base"], columns["quote"]), pc.not_equal(columns["base"], ""))
+    )
     check.add(same, "quote", "a currency other than the base", _take(columns["quote"], same))
     keep = np.ones(len(frame), dtype=bool)
     result = _assemble(columns, frame, keep, [], check.rows)
@@ -755,8 +765,8 @@ def _split_pairs(frame: pd.DataFrame) -> pd.DataFrame:
 
 
 def _check_rate_clashes(check: _Checker, rates: pd.DataFrame) -> None:
-    if any(p.column in ("time", "rate") for p in check.problems):
-        return  # bad values would only be reported twice
+    bad = {p.row for p in check.problems}
+    rates = rates[~rates[schema.SOURCE_ROW].isin(bad)]  # bad values are reported already
     keys = ["time", "base", "quote", "source"]
     distinct = rates.assign(rate=rates["rate"].astype(str)).drop_duplicates([*keys, "rate"])
     clash = distinct[distinct.duplicated(keys, keep="first")]

@@ -10,8 +10,9 @@ the line's tolerance of the statement's.
 Causes are ranked by how exactly they explain the line (reproducing the statement's figure before
 being merely consistent with it), then by how many of the key's other lines would still break
 with them, then by simplicity (the order of :data:`KINDS`, then fewer fills), then by what remains.
-The search over pairs of fills is bounded (:class:`SearchLimits`) and says when it was cut short;
-once a cause explains every break of a key exactly, the costlier trials of that key are skipped.
+Once a cause explains every break of a key exactly, the costlier trials of that key are skipped.
+The search over pairs of fills runs last, only for breaks nothing simpler explains, and is bounded
+(:class:`SearchLimits`); the line says when it was cut short.
 """
 
 from __future__ import annotations
@@ -52,8 +53,8 @@ KINDS = (
     "fee_charged_twice",
     "fx_rate",
     "rounding",
-    "missing_fill",
     "removed_fill",
+    "missing_fill",
     "removed_fills",
     "fee_difference",
 )
@@ -69,6 +70,8 @@ class SearchLimits:
     max_single_removals: int = 5_000  # per key
     max_pair_removals: int = 300  # per key, the nearest in time first
     max_causes: int = 5  # kept per line
+    #: Skip a key's costlier trials once every break of it has an exact, consistent cause.
+    stop_early: bool = True
 
 
 @dataclass(frozen=True)
@@ -100,6 +103,7 @@ class Trial:
     involved: tuple[Involved, ...] = ()
     figures: Mapping[Key, Figures] = field(default_factory=dict)
     view: View = field(default_factory=View)
+    scope: tuple[Key, ...] = ()  # keys whose lines a view is read over (a statement-wide rule)
     only_line: int | None = None  # a trial about how one line reads, not about a key
     forced: Decimal | None = None  # what that line would read, when no figure changes
     consistent_only: bool = False  # consistent with the gap rather than reproducing it
@@ -137,7 +141,10 @@ class Search:
                 self._try(trial)
         keys = sorted({k for n in self.broken for k in self.by_number[n].keys})
         for key in keys:
-            self._search_key(key)
+            if self._on_statement(key):
+                self._search_key(key)
+            else:
+                self._note(key, "only a renamed line was looked for")
         return {n: self._finding(n) for n in sorted(self.broken)}
 
     def _search_key(self, key: Key) -> None:
@@ -147,18 +154,21 @@ class Search:
             self._cut_offs,
             self._methods,
             self._conventions,
-            self._missing_fill,
             self._single_removals,
+            self._missing_fill,
             self._pair_removals,
         )
         fill_stages = (self._duplicates, self._missing_fill)
         for stage in stages:
-            if self._key_explained(key):
+            if self.limits.stop_early and self._key_explained(key):
                 return
             if stage in fill_stages and self._trades_agree(key):
                 continue
             for trial in stage(case):
                 self._try(trial)
+
+    def _on_statement(self, key: Key) -> bool:
+        return any(s.theirs is not None for s in self.by_key.get(key, []))
 
     def _key_explained(self, key: Key) -> bool:
         """Every break on this key has an exact cause that leaves none of its lines broken."""
@@ -170,7 +180,8 @@ class Search:
         if trial.only_line is not None:
             targets = [self.by_number[trial.only_line]]
         else:
-            targets = _unique(s for k in trial.figures for s in self.by_key.get(k, []))
+            keys = [*trial.figures, *trial.scope]
+            targets = _unique(s for k in keys for s in self.by_key.get(k, []))
         changed = {
             s.number: trial.forced
             if trial.forced is not None
@@ -235,7 +246,7 @@ class Search:
     def _finding(self, number: int) -> Finding:
         causes = sorted(self.found.get(number, []), key=lambda c: c.rank_key)
         notes = self.notes.get(number, [])
-        if not causes:
+        if not causes and self.by_number[number].theirs is not None:
             notes = ["no cause found that explains the difference within tolerance", *notes]
         return Finding(tuple(_distinct(causes)[: self.limits.max_causes]), "; ".join(notes))
 
@@ -273,7 +284,7 @@ class Search:
                         f"though the line says {spec.basis}",
                         self._items(spec, ("commission", "financing"), "charged"),
                         view=View(basis=basis),
-                        only_line=spec.number,
+                        scope=spec.keys,
                     )
         for mode in ("half-even", "half-up"):
             yield Trial(
@@ -281,7 +292,7 @@ class Search:
                 f"the statement rounds each amount to the minor unit ({mode}) before adding",
                 self._sub_minor_items(spec),
                 view=View(round_each=mode),
-                only_line=spec.number,
+                scope=spec.keys,
             )
         if self.rates is not None and self.evaluator.value(spec, self.base).conversions:
             for choice in self.rates.choices(self.period.end):
@@ -290,7 +301,7 @@ class Search:
                     f"the statement converts at {choice.describe}",
                     self._items(spec, ("gross", "commission", "financing"), "converted"),
                     view=View(rates=choice),
-                    only_line=spec.number,
+                    scope=spec.keys,
                 )
         yield from self._fee_trials(spec)
         yield from self._rounding_bound(spec)
@@ -321,7 +332,7 @@ class Search:
                 f"statement's {theirs_spec.account} {theirs_spec.instrument or '(account)'}: "
                 "the same figure under another name",
                 only_line=spec.number,
-                forced=theirs,
+                forced=_target(spec),
             )
 
     def _fee_trials(self, spec: LineSpec) -> Iterator[Trial]:
@@ -703,7 +714,9 @@ class Search:
             )
 
     def _pair_removals(self, case: KeyCase) -> Iterator[Trial]:
-        if self._trades_agree(case.key):
+        """The last resort, for breaks of the key that nothing simpler explains."""
+        broken = [s.number for s in self.by_key.get(case.key, []) if s.number in self.broken]
+        if self._trades_agree(case.key) or all(self.found.get(n) for n in broken):
             return
         rows = self._removable(case)
         pairs = [

@@ -335,6 +335,8 @@ def build_specs(
         if key in covered or held.is_idle():
             continue
         for measure in measures:
+            if not _has(held, measure):
+                continue
             specs.append(
                 LineSpec(
                     len(specs) + 1,
@@ -353,6 +355,15 @@ def build_specs(
     return specs
 
 
+def _has(held: Figures, measure: str) -> bool:
+    """Whether our figures hold anything for ``measure`` that a statement should show."""
+    if measure in ("open_quantity", "average_price"):
+        return bool(held.quantity)
+    if measure == "realized_pnl":
+        return bool(held.gross or held.commission)
+    return bool(getattr(held, measure))
+
+
 def _covered_keys(
     account: str,
     instrument: str,
@@ -365,7 +376,8 @@ def _covered_keys(
     if instrument:
         held = figures.get((account, instrument))
         if held is None:
-            return (), "not in our books"
+            known = any(k[0] == account for k in figures)
+            return (), "not in our books" if known else "account not in our books"
         if held.currency == currency or convertible or measure == "open_quantity":
             return ((account, instrument),), ""
         hint = f"; convert with --rates and --base {currency}" if base is None else ""
@@ -402,7 +414,7 @@ def _raise_missing_rates(
                 f"{utc_text(missing.part.time)}, to convert {account} {instrument} "
                 f"{missing.part.part} of {missing.part.item} into {base} "
                 f"({counts[pair]} amount{'s' if counts[pair] != 1 else ''} lack a rate)",
-                "none",
+                None,
                 None,
                 None,
                 "missing rate",
