@@ -93,6 +93,11 @@ def breaks_document(result: TieOut, manifest: Mapping[str, Any]) -> dict[str, An
         )
     return {
         "period": manifest.get("period"),
+        "tz_database": manifest.get("tz_database"),
+        "method": result.method,
+        "commission": result.commission,
+        "rounding": result.rounding,
+        "base": result.base,
         "counts": result.counts(),
         "lines": lines,
         "caution": manifest.get("caution"),
