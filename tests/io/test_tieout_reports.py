@@ -1,4 +1,4 @@
-"""The tie-out's reports: exact JSON, a workbook where no input runs as a formula, an escaped page."""
+"""The tie-out reports: exact JSON, a workbook where no input runs as a formula, a safe page."""
 
 from __future__ import annotations
 
