@@ -594,7 +594,7 @@ def canonical_statement(frame: pd.DataFrame, *, source: str = "statement") -> pd
     """Validate and convert a broker's or clearing firm's statement (see docs/formats.md).
 
     A blank ``instrument`` makes an account-level line. Blank measures are not stated; each line
-    states at least one. ``result.attrs["measures"]`` lists the measures some line states, and
+    states at least one. ``result.attrs["measures"]`` lists the measure columns the file has, and
     ``average_price_places`` keeps the places each average price was written with (a statement
     shows a rounded average, so ours is compared at its places).
     """
@@ -625,7 +625,7 @@ def canonical_statement(frame: pd.DataFrame, *, source: str = "statement") -> pd
     result["average_price_places"] = _written_places(frame, "average_price")
     _check_statement_lines(check, result, measures)
     _raise(check)
-    result.attrs["measures"] = [m for m in measures if result[m].notna().any()]
+    result.attrs["measures"] = measures
     result.attrs["read_summary"] = {"source": source, "rows_read": len(frame)}
     return result
 

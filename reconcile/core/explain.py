@@ -17,7 +17,6 @@ The search over pairs of fills runs last, only for breaks nothing simpler explai
 
 from __future__ import annotations
 
-from collections import ChainMap
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from datetime import timedelta
@@ -44,6 +43,7 @@ from reconcile.schema import COMMISSION_CONVENTIONS, METHODS
 #: Kinds of cause, simplest first (the order breaks ties in the ranking).
 KINDS = (
     "naming",
+    "unknown_key",
     "sign",
     "duplicate_fill",
     "cut_off",
@@ -144,7 +144,7 @@ class Search:
             if self._on_statement(key):
                 self._search_key(key)
             else:
-                self._note(key, "only a renamed line was looked for")
+                self._try(self._unknown_key(self.cases[key]))
         return {n: self._finding(n) for n in sorted(self.broken)}
 
     def _search_key(self, key: Key) -> None:
@@ -167,6 +167,26 @@ class Search:
             for trial in stage(case):
                 self._try(trial)
 
+    def _unknown_key(self, case: KeyCase) -> Trial:
+        """A key the statement says nothing about: everything of ours on it is the difference."""
+        fills = case.fills_before_end()
+        events = [r for r in case.events.financing if r["time"] < case.bounds.end]
+        held = self.base[case.key]
+        nothing = Figures(
+            held.account, held.instrument, held.currency, held.multiplier, (), (), (), ZERO, ZERO
+        )
+        return Trial(
+            "unknown_key",
+            f"the statement has nothing for {case.account} {case.instrument}, which our books "
+            f"hold with {len(fills):,} fill{'s' if len(fills) != 1 else ''}"
+            + (f" and {len(events):,} financing events" if events else "")
+            + " up to the period end (an instrument the statement does not carry, or names "
+            "differently)",
+            tuple(Involved(r["fill_id"], "ours only") for r in fills)
+            + tuple(Involved(r["event_id"], "ours only") for r in events),
+            {case.key: nothing},
+        )
+
     def _on_statement(self, key: Key) -> bool:
         return any(s.theirs is not None for s in self.by_key.get(key, []))
 
@@ -176,16 +196,13 @@ class Search:
         return all(any(c.rank_key[:2] == (0, 0) for c in self.found.get(n, [])) for n in lines)
 
     def _try(self, trial: Trial) -> None:
-        figures = ChainMap(dict(trial.figures), dict(self.base))
         if trial.only_line is not None:
             targets = [self.by_number[trial.only_line]]
         else:
             keys = [*trial.figures, *trial.scope]
             targets = _unique(s for k in keys for s in self.by_key.get(k, []))
         changed = {
-            s.number: trial.forced
-            if trial.forced is not None
-            else self._ours(s, figures, trial.view)
+            s.number: trial.forced if trial.forced is not None else self._ours(s, trial)
             for s in targets
         }
         for spec in targets:
@@ -201,8 +218,10 @@ class Search:
                 continue
             self._keep(spec, trial, ours, theirs, changed)
 
-    def _ours(self, spec: LineSpec, figures: Mapping[Key, Figures], view: View) -> Decimal | None:
-        return self.evaluator.value(spec, figures, view).ours
+    def _ours(self, spec: LineSpec, trial: Trial) -> Decimal | None:
+        """The line's figure with the trial's figures in place of the base ones."""
+        figures = {k: trial.figures.get(k) or self.base[k] for k in spec.keys}
+        return self.evaluator.value(spec, figures, trial.view).ours
 
     def _keep(
         self,

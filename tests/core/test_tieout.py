@@ -250,12 +250,13 @@ def test_keys_only_one_side_has_are_breaks_and_a_renamed_one_is_named() -> None:
     )
     assert unknown["top_cause"] == "naming"
     assert "our A KSTL matches the statement's A KSTL.X" in unknown["explanation"]
-    ours_only = line(result, instrument="KSTL")
-    assert (ours_only["theirs"], ours_only["note"]) == (
-        None,
-        "not on the statement; only a renamed line was looked for",
-    )
-    assert ours_only["top_cause"] == "naming"
+    ours_only = line(result, instrument="KSTL", measure="realized_pnl")
+    assert (ours_only["theirs"], ours_only["note"]) == (None, "not on the statement")
+    # Leaving KSTL out ties both its lines; the rename explains the realized P&L only.
+    assert [c["kind"] for c in causes(result, ours_only["line"])] == ["unknown_key", "naming"]
+    charged = line(result, instrument="KSTL", measure="commission")  # 2.00 USD, no match
+    assert charged["top_cause"] == "unknown_key"
+    assert causes(result, charged["line"])[0]["fill_ids"] == "b1;s1"
     nothing = line(result, account="B")
     assert (nothing["status"], nothing["note"]) == ("tied", "account not in our books")
 

@@ -112,5 +112,6 @@ def test_row_order_changes_nothing(data: st.DataObject, method: Method) -> None:
     shuffled = history.iloc[list(order)].reset_index(drop=True)
     one = reconcile.tie_out(history, theirs, span, method=method)
     two = reconcile.tie_out(shuffled, theirs, span, method=method)
-    assert rows_of(one.lines) == rows_of(two.lines)
-    assert rows_of(one.causes) == rows_of(two.causes)
+    # Explanations name source rows, which are positions in the input: everything else agrees.
+    assert rows_of(one.lines, drop=["explanation"]) == rows_of(two.lines, drop=["explanation"])
+    assert rows_of(one.causes, drop=["explanation"]) == rows_of(two.causes, drop=["explanation"])
