@@ -21,6 +21,7 @@ if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
     from reconcile.core.compare import Tolerance
+    from reconcile.core.explain import SearchLimits
     from reconcile.core.matching import match
     from reconcile.core.summary import currency_totals
     from reconcile.core.tieout import TieOut, tie_out
@@ -36,6 +37,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "Book",
+    "SearchLimits",
     "TieOut",
     "Tolerance",
     "allocate",
@@ -65,6 +67,7 @@ _HOMES = {
     "read_opening": "reconcile.io.readers",
     "round_money": "reconcile.money",
     "write_tables": "reconcile.io.writers.tables",
+    "SearchLimits": "reconcile.core.explain",
     "TieOut": "reconcile.core.tieout",
     "Tolerance": "reconcile.core.compare",
     "read_rates": "reconcile.io.readers",

@@ -19,6 +19,7 @@ PUBLIC = [
     "read_opening",
     "round_money",
     "write_tables",
+    "SearchLimits",
     "TieOut",
     "Tolerance",
     "read_rates",

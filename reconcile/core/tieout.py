@@ -129,7 +129,8 @@ def tie_out(
     without an offset. ``tolerance`` is in minor units, ``relative_tolerance`` a fraction of the
     statement's figure (either suffices); ``tolerances`` overrides them per measure. With
     ``base`` and ``rates``, statement lines in the base currency compare against our amounts
-    converted at the rate in force when each was realized.
+    converted at the rate in force when each was realized (``rate_source`` picks one source of a
+    rates file that holds several). ``limits`` bounds the break search.
     """
     check_choice("method", method, schema.METHODS)
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
@@ -193,11 +194,15 @@ def _period(period: PeriodSpec, timezone: str | None, cutoff: str | None) -> Per
 
 def decimal_option(value: Decimal | int | str, option: str) -> Decimal:
     """A tolerance given as text or a number: an exact decimal >= 0, never a binary float."""
+    if isinstance(value, float):
+        raise ConfigError(
+            f"{option}: expected a decimal as text or Decimal (not a binary float), found {value!r}"
+        )
     try:
-        number = Decimal(str(value).strip()) if not isinstance(value, Decimal) else value
+        number = value if isinstance(value, Decimal) else Decimal(str(value).strip())
     except ArithmeticError:
         number = Decimal(-1)
-    if isinstance(value, float) or not number.is_finite() or number < 0:
+    if not number.is_finite() or number < 0:
         raise ConfigError(f"{option}: expected a decimal >= 0, found {str(value)!r}")
     return number
 

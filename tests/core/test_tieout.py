@@ -416,6 +416,7 @@ def test_a_missing_rate_is_an_error_naming_what_was_needed() -> None:
         ({"rates": EUR_USD}, "rates: FX rates are used only with a base currency"),
         ({"base": "DOLLARS", "rates": EUR_USD}, "base: expected an ISO 4217 currency code"),
         ({"tolerance": "-1"}, "tolerance: expected a decimal >= 0, found '-1'"),
+        ({"relative_tolerance": 0.01}, "not a binary float), found 0.01"),
         ({"method": "random"}, "method: expected one of fifo, lifo, hifo, average"),
     ],
 )
