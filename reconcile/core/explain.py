@@ -283,6 +283,8 @@ class Search:
 
     def _line_trials(self, spec: LineSpec) -> Iterator[Trial]:
         yield from self._naming(spec)
+        if not spec.keys and spec.theirs is not None:
+            yield self._theirs_only(spec)
         ours = self.values[spec.number]
         if ours and spec.theirs is not None and spec.theirs == -ours:
             yield Trial(
@@ -353,6 +355,39 @@ class Search:
                 only_line=spec.number,
                 forced=_target(spec),
             )
+
+    def _theirs_only(self, spec: LineSpec) -> Trial:
+        """A line of a key our books do not hold: a missing fill for a quantity, else the key."""
+        what = f"{spec.account} {spec.instrument or '(account)'} in {spec.currency}"
+        if spec.measure != "open_quantity" or spec.theirs is None:
+            return Trial(
+                "unknown_key",
+                f"our books have nothing for {what}: its fills are missing from ours, or it has "
+                "another name there",
+                only_line=spec.number,
+                forced=spec.theirs,
+                consistent_only=True,
+            )
+        side = "buy" if spec.theirs > 0 else "sell"
+        price = next(
+            (
+                s.theirs
+                for s in self.specs
+                if s.measure == "average_price"
+                and (s.account, s.instrument, s.currency)
+                == (spec.account, spec.instrument, spec.currency)
+            ),
+            None,
+        )
+        at = f" at {price.normalize():f} (the statement's average price)" if price else ""
+        return Trial(
+            "missing_fill",
+            f"the statement holds {self._show(spec, spec.theirs)} of {what}, which our books do "
+            f"not hold: a {side} of {abs(spec.theirs).normalize():,f}{at} at least is not in our "
+            "fills",
+            only_line=spec.number,
+            forced=spec.theirs,
+        )
 
     def _fee_trials(self, spec: LineSpec) -> Iterator[Trial]:
         if spec.measure != "commission" or spec.theirs is None:
