@@ -19,14 +19,9 @@ from reconcile.core.compare import MONEY, Tolerance
 from reconcile.core.matching import match
 from reconcile.core.period import make_period, utc_text
 from reconcile.core.tieout import TieOut, decimal_option, tie_out
+from reconcile.io import readers
 from reconcile.io.config import TieOutConfig, read_config
-from reconcile.io.readers import (
-    read_fills,
-    read_financing,
-    read_opening,
-    read_rates,
-    read_statement,
-)
+from reconcile.io.readers import read_fills, read_financing, read_opening
 from reconcile.io.render import terminal
 from reconcile.io.writers.tables import write_tables
 from reconcile.io.writers.tieout import write_tieout
@@ -163,8 +158,8 @@ def read_tieout_inputs(
     """Read every input of a tie-out first, so one bad file stops it before anything is written."""
     return TieOutInputs(
         inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe),
-        statement=read_statement(statement),
-        rates=None if rates is None else read_rates(rates, timezone=timezone),
+        statement=readers.read_statement(statement),
+        rates=None if rates is None else readers.read_rates(rates, timezone=timezone),
         config=read_config(config),
     )
 

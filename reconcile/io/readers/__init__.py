@@ -6,23 +6,12 @@ from pathlib import Path
 
 import pandas as pd
 
-from reconcile.core.canon import (
-    canonical_fills,
-    canonical_financing,
-    canonical_opening,
-    canonical_rates,
-    canonical_statement,
-)
+from reconcile.core import canon
+from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
 from reconcile.io.readers.tabular import read_table
 
-__all__ = [
-    "read_fills",
-    "read_financing",
-    "read_opening",
-    "read_rates",
-    "read_statement",
-    "read_table",
-]
+__all__ = ["read_fills", "read_financing", "read_opening", "read_table"]
+__all__ += ["read_rates", "read_statement"]
 
 
 def read_fills(
@@ -60,7 +49,7 @@ def read_opening(
 def read_statement(path: Path | str, *, input_format: str | None = None) -> pd.DataFrame:
     """Read and validate a statement to tie out against (the columns of docs/formats.md)."""
     raw = read_table(path, input_format)
-    return canonical_statement(raw, source=str(path))
+    return canon.canonical_statement(raw, source=str(path))
 
 
 def read_rates(
@@ -68,4 +57,4 @@ def read_rates(
 ) -> pd.DataFrame:
     """Read FX rates (time, base, quote or pair, rate, optional source) for ``--base``."""
     raw = read_table(path, input_format)
-    return canonical_rates(raw, source=str(path), timezone=timezone)
+    return canon.canonical_rates(raw, source=str(path), timezone=timezone)
