@@ -50,12 +50,12 @@ def test_breaks_are_listed_with_their_top_cause_and_exit_1(workdir: Path) -> Non
         "───────────────────────────────",
         "   4                  0       4",
         "Breaks",
-        "#   account   instrument   measure         currency     ours   theirs   difference",
-        "──────────────────────────────────────────────────────────────────────────────────",
-        "1   HRB-1     TALC         realized_pnl    USD        133.60    84.30        49.30",
-        "2   HRB-1     TALC         commission      USD          1.40     0.70         0.70",
-        "3   HRB-1     TALC         open_quantity   USD           100      200         -100",
-        "8   HRB-1     (account)    realized_pnl    USD        133.60    84.30        49.30",
+        "#   account   instrument   measure         ccy     ours   theirs   difference",
+        "─────────────────────────────────────────────────────────────────────────────",
+        "1   HRB-1     TALC         realized pnl    USD   133.60    84.30        49.30",
+        "2   HRB-1     TALC         commission      USD     1.40     0.70         0.70",
+        "3   HRB-1     TALC         open quantity   USD      100      200         -100",
+        "8   HRB-1     (account)    realized pnl    USD   133.60    84.30        49.30",
         "#1 cut_off: fill T3 at 2026-11-30T21:45:00Z (2026-11-30 16:45:00 America/New_York), 15"
         " min before",
         "the period end, is counted in the next period; ours would be 84.30 USD, explaining"

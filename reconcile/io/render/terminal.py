@@ -149,8 +149,8 @@ def _breaks_table(breaks: pd.DataFrame) -> Table:
         title="Breaks", title_justify="left", box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False
     )
     table.add_column("#", justify="right")
-    for name in ("account", "instrument", "measure", "currency"):
-        table.add_column(name)
+    for name in ("account", "instrument", "measure", "ccy"):
+        table.add_column(name, overflow="fold")  # a narrow terminal wraps names, never cuts them
     for name in ("ours", "theirs", "difference"):
         table.add_column(name, justify="right")
     for row in breaks.astype(object).where(breaks.notna(), None).to_dict(orient="records"):
@@ -159,7 +159,7 @@ def _breaks_table(breaks: pd.DataFrame) -> Table:
             str(row["line"]),
             row["account"],
             row["instrument"] or "(account)",
-            row["measure"],
+            row["measure"].replace("_", " "),
             row["currency"],
             *(grouped(row[c], money) for c in ("ours", "theirs", "difference")),
         )
