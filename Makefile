@@ -24,7 +24,10 @@ demo: $(STAMP)
 	$(BIN)/reconcile report sample_data/fills.csv --financing sample_data/financing.csv \
 		--timezone America/New_York --title "Larkmoor Capital: October and November 2026" \
 		--out $(DEMO_OUT)/report
-	@echo "Demo results are in $(DEMO_OUT)/"
+	# The demo statement holds one planted break, so the tie-out exits 1; only 2 fails the demo.
+	$(BIN)/reconcile tie-out sample_data/fills.csv --financing sample_data/financing.csv \
+		--statement sample_data/statement.csv --period 2026-11 \
+		--timezone America/New_York --cutoff 17:00 --out $(DEMO_OUT)/tieout || [ $$? -eq 1 ]
 	# The fee audit exits 1 when it finds leakage: the sample holds one late borrow fee, the
 	# planted copy one overcharge of each kind (sample_data/fees-planted/planted.csv).
 	$(BIN)/reconcile fees sample_data/fills.csv --schedule sample_data/larkmoor-schedule.toml \
@@ -34,7 +37,7 @@ demo: $(STAMP)
 		--schedule sample_data/larkmoor-schedule.toml \
 		--financing sample_data/fees-planted/financing.csv --marks sample_data/marks.csv \
 		--format html --out $(DEMO_OUT)/fees-planted || test $$? -eq 1
-	@echo "Fee audits are in $(DEMO_OUT)/fees/ and $(DEMO_OUT)/fees-planted/ (open fees.html)"
+	@echo "Demo results are in $(DEMO_OUT)/: match, tieout, fees, fees-planted, report (open report/report.html)"
 
 test: lint typecheck unit
 
@@ -55,6 +58,7 @@ sample-data: $(STAMP)
 	$(BIN)/python sample_data/generate.py
 	$(BIN)/python sample_data/generate_sources.py
 	$(BIN)/python sample_data/fees_scenario.py
+	$(BIN)/python sample_data/make_statement.py
 
 clean:
 	rm -rf $(VENV) $(DEMO_OUT) .mypy_cache .pytest_cache .ruff_cache .hypothesis

@@ -20,10 +20,13 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from reconcile import errors
     from reconcile.core.book import Book
+    from reconcile.core.compare import Tolerance
+    from reconcile.core.explain import SearchLimits
     from reconcile.core.fees.audit import FeeAudit, audit_fees
     from reconcile.core.matching import match
     from reconcile.core.stats import Stats, stats
     from reconcile.core.summary import currency_totals
+    from reconcile.core.tieout import TieOut, tie_out
     from reconcile.io.readers import (
         check,
         load_profile,
@@ -31,6 +34,8 @@ if TYPE_CHECKING:
         read_financing,
         read_marks,
         read_opening,
+        read_rates,
+        read_statement,
     )
     from reconcile.io.readers.schedule import read_schedule
     from reconcile.io.writers.tables import write_tables
@@ -39,7 +44,10 @@ if TYPE_CHECKING:
 __all__ = [
     "Book",
     "FeeAudit",
+    "SearchLimits",
     "Stats",
+    "TieOut",
+    "Tolerance",
     "allocate",
     "audit_fees",
     "check",
@@ -52,9 +60,12 @@ __all__ = [
     "read_financing",
     "read_marks",
     "read_opening",
+    "read_rates",
     "read_schedule",
+    "read_statement",
     "round_money",
     "stats",
+    "tie_out",
     "write_tables",
 ]
 
@@ -78,6 +89,12 @@ _HOMES = {
     "audit_fees": "reconcile.core.fees.audit",
     "read_marks": "reconcile.io.readers",
     "read_schedule": "reconcile.io.readers.schedule",
+    "SearchLimits": "reconcile.core.explain",
+    "TieOut": "reconcile.core.tieout",
+    "Tolerance": "reconcile.core.compare",
+    "read_rates": "reconcile.io.readers",
+    "read_statement": "reconcile.io.readers",
+    "tie_out": "reconcile.core.tieout",
 }
 
 

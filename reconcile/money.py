@@ -136,6 +136,8 @@ def allocate(amount: Decimal, weights: Sequence[Decimal], places: int) -> list[D
     """
     if not weights:
         raise ValueError("allocate needs at least one weight")
+    if len(weights) == 1 and weights[0] > 0:
+        return [_whole_units(amount, places)]  # the common case, without rational arithmetic
     total_weight = sum((Fraction(w) for w in weights), Fraction(0))
     if total_weight <= 0 or any(w < 0 for w in weights):
         raise ValueError(f"allocate needs non-negative weights with a positive sum, got {weights}")
@@ -151,6 +153,15 @@ def allocate(amount: Decimal, weights: Sequence[Decimal], places: int) -> list[D
     for index in by_remainder[:left]:
         floors[index] += 1
     return [Decimal(sign * f).scaleb(-places, EXACT) for f in floors]
+
+
+def _whole_units(amount: Decimal, places: int) -> Decimal:
+    """``amount`` written with exactly ``places`` decimals; raise if it is not a whole number of
+    ``10 ** -places`` (as :func:`allocate` does for any split)."""
+    units = amount.scaleb(places, EXACT)
+    if units != units.to_integral_value(rounding=ROUND_HALF_EVEN, context=EXACT):
+        raise ValueError(f"{amount} is not a multiple of 10**-{places}")
+    return Decimal(int(units)).scaleb(-places, EXACT)
 
 
 def prorata(

@@ -454,3 +454,94 @@ FEE_DRAG: Final = (
     "financing_expected",
     "fee_drag_expected_pct",
 )
+
+# --- Statement tie-out -------------------------------------------------------------------------
+
+#: What a statement line can state, and the order compared lines are listed in.
+MONEY_MEASURES: Final = ("realized_pnl", "commission", "financing")
+STATEMENT_MEASURES: Final = (*MONEY_MEASURES, "open_quantity", "average_price")
+#: Measures of one instrument that an account-level line (blank instrument) cannot state.
+INSTRUMENT_ONLY_MEASURES: Final = ("open_quantity", "average_price")
+STATEMENT_REQUIRED: Final = ("account", "currency")
+STATEMENT_BASES: Final = ("gross", "net")
+STATEMENT_COLUMNS: Final = ("account", "instrument", "currency", *STATEMENT_MEASURES, "basis")
+
+RATES_COLUMNS: Final = ("time", "base", "quote", "rate", "source")
+
+STATUSES: Final = ("tied", "within tolerance", "break")
+COMPARED_LINES: Final = (
+    "line",
+    "account",
+    "instrument",
+    "currency",
+    "measure",
+    "basis",
+    "ours",
+    "theirs",
+    "difference",
+    "allowed",
+    "status",
+    "top_cause",
+    "explanation",
+    "note",
+    "statement_rows",
+    "fx_rate",
+    "fx_rates_used",
+)
+CAUSES: Final = (
+    "line",
+    "rank",
+    "kind",
+    "explained",
+    "residual",
+    "fill_ids",
+    "explanation",
+)
+FILLS_INVOLVED: Final = (
+    "line",
+    "rank",
+    "kind",
+    "role",
+    "fill_id",
+    "source_row",
+    "account",
+    "instrument",
+    "currency",
+    "time",
+    "side",
+    "quantity",
+    "price",
+    "commission",
+)
+CONVERSIONS: Final = (
+    "account",
+    "instrument",
+    "part",
+    "item_id",
+    "time",
+    "currency",
+    "amount",
+    "pair",
+    "rate",
+    "rate_time",
+    "rate_source",
+    "base",
+    "converted",
+)
+
+#: How the tie-out's own columns are stored (the other columns are typed by the sets above).
+TIEOUT_DECIMAL_COLUMNS: Final = frozenset(
+    {
+        "ours",
+        "theirs",
+        "difference",
+        "allowed",
+        "explained",
+        "residual",
+        "fx_rate",
+        "rate",
+        "converted",
+    }
+)
+TIEOUT_TIME_COLUMNS: Final = frozenset({"rate_time"})
+TIEOUT_INTEGER_COLUMNS: Final = frozenset({"line", "rank", "fx_rates_used"})

@@ -27,6 +27,12 @@ PUBLIC = [
     "audit_fees",
     "read_marks",
     "read_schedule",
+    "SearchLimits",
+    "TieOut",
+    "Tolerance",
+    "read_rates",
+    "read_statement",
+    "tie_out",
 ]
 
 

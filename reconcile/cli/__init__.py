@@ -7,6 +7,7 @@ from reconcile.cli import fees as _fees  # noqa: F401  (registers the command)
 from reconcile.cli import match as _match  # noqa: F401  (registers the command)
 from reconcile.cli import report as _report  # noqa: F401
 from reconcile.cli import stats as _stats  # noqa: F401
+from reconcile.cli import tieout as _tieout  # noqa: F401  (registers the command)
 from reconcile.cli._app import app
 
 __all__ = ["app", "main"]

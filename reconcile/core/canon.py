@@ -676,3 +676,198 @@ def canonical_marks(
     result = _assemble(columns, frame, keep, [], check.rows)
     _raise(check)
     return result
+
+
+def canonical_statement(frame: pd.DataFrame, *, source: str = "statement") -> pd.DataFrame:
+    """Validate and convert a broker's or clearing firm's statement (see docs/formats.md).
+
+    A blank ``instrument`` makes an account-level line. Blank measures are not stated; each line
+    states at least one. ``result.attrs["measures"]`` lists the measure columns the file has, and
+    ``average_price_places`` keeps the places each average price was written with (a statement
+    shows a rounded average, so ours is compared at its places).
+    """
+    _require(frame, schema.STATEMENT_REQUIRED, source)
+    measures = [m for m in schema.STATEMENT_MEASURES if m in frame.columns]
+    if not measures:
+        raise MissingColumnsError(
+            f"{source}: expected at least one of the columns "
+            f"{', '.join(schema.STATEMENT_MEASURES)}; the header has: "
+            f"{', '.join(str(c) for c in frame.columns)}",
+            [Problem(source, "a measure column", None, 1, None, "missing column")],
+        )
+    frame = frame.reset_index(drop=True)
+    check = _Checker(frame, source, _source_rows(frame))
+    bases = {b: b for b in schema.STATEMENT_BASES}
+    columns: dict[str, pa.Array | pd.Series] = {
+        "account": check.text("account", required=True),
+        "instrument": check.text("instrument", required=False),
+        "currency": check.currency("currency"),
+    }
+    for measure in schema.STATEMENT_MEASURES:
+        columns[measure] = check.decimal(measure, optional=True)
+    columns["basis"] = check.choice(
+        "basis", {"": "gross", **bases}, "gross or net (blank is gross)"
+    )
+    keep = np.ones(len(frame), dtype=bool)
+    result = _assemble(columns, frame, keep, [], check.rows)
+    result["average_price_places"] = _written_places(frame, "average_price")
+    _check_statement_lines(check, result, measures)
+    _raise(check)
+    result.attrs["measures"] = measures
+    result.attrs["read_summary"] = {"source": source, "rows_read": len(frame)}
+    return result
+
+
+def _written_places(frame: pd.DataFrame, column: str) -> list[int]:
+    """Decimal places each value of ``column`` was written with (0 where blank or absent)."""
+    if column not in frame.columns:
+        return [0] * len(frame)
+    series = frame[column]
+    if isinstance(series.dtype, pd.ArrowDtype) and pa.types.is_decimal(series.dtype.pyarrow_dtype):
+        return [int(series.dtype.pyarrow_dtype.scale)] * len(frame)
+    places = []
+    for value in _as_text(series, column, None).to_pylist():
+        text = (value or "").strip().lower()
+        try:
+            exponent = Decimal(text).as_tuple().exponent if text else 0
+        except InvalidOperation:
+            exponent = 0
+        places.append(max(0, -exponent) if isinstance(exponent, int) else 0)
+    return places
+
+
+def _check_statement_lines(check: _Checker, lines: pd.DataFrame, measures: list[str]) -> None:
+    stated = lines[measures].notna()
+    unreadable = {p.row for p in check.problems if p.column in measures}
+    for position in np.flatnonzero(~stated.any(axis=1).to_numpy()):
+        if int(check.rows[position]) in unreadable:
+            continue  # its value is already reported as bad
+        check.problems.append(
+            Problem(
+                check.source,
+                f"a value in at least one of {', '.join(measures)}",
+                None,
+                int(check.rows[position]),
+                None,
+                "empty line",
+            )
+        )
+    account_level = lines["instrument"].eq("").to_numpy()
+    for measure in schema.INSTRUMENT_ONLY_MEASURES:
+        if measure not in measures:
+            continue
+        bad = [int(i) for i in np.flatnonzero(account_level & stated[measure].to_numpy())]
+        check.add(
+            bad,
+            measure,
+            "blank on an account-level line (blank instrument): amounts of different "
+            "instruments add up, their quantities and prices do not",
+            [str(lines[measure].iloc[i]) for i in bad],
+            "instrument measure on an account line",
+        )
+    if "average_price" in measures:
+        _check_one_average(check, lines[stated["average_price"].to_numpy()])
+
+
+def _check_one_average(check: _Checker, priced: pd.DataFrame) -> None:
+    """A key's average price comes from one line: averages of several lines do not add up."""
+    first_rows: dict[tuple[str, str, str], int] = {}
+    for row in priced.to_dict(orient="records"):
+        key = (row["account"], row["instrument"], row["currency"])
+        if key not in first_rows:
+            first_rows[key] = row[schema.SOURCE_ROW]
+            continue
+        check.problems.append(
+            Problem(
+                check.source,
+                f"one average_price per account, instrument and currency (row "
+                f"{first_rows[key]} gives one for {key[0]} {key[1]})",
+                str(row["average_price"]),
+                int(row[schema.SOURCE_ROW]),
+                "average_price",
+                "two average prices for one key",
+            )
+        )
+
+
+_PAIR = re.compile(r"^([A-Za-z]{3})\s*[/.\-_ ]?\s*([A-Za-z]{3})$")
+
+
+def canonical_rates(
+    frame: pd.DataFrame, *, source: str = "rates", timezone: str | None = None
+) -> pd.DataFrame:
+    """Validate and convert FX rates: ``time``, ``base``, ``quote``, ``rate`` (1 base = rate quote).
+
+    A ``pair`` column (``EURUSD``, ``EUR/USD``) may stand for ``base`` and ``quote``; an optional
+    ``source`` names where a rate came from. Exact repeats are dropped; one pair, source and time
+    with two different rates is an error.
+    """
+    frame = frame.reset_index(drop=True)
+    if "pair" in frame.columns and not {"base", "quote"} & set(frame.columns):
+        frame = _split_pairs(frame)
+    _require(frame, ("time", "base", "quote", "rate"), source)
+    if timezone is not None:
+        zone(timezone)
+    check = _Checker(frame, source, _source_rows(frame))
+    if "pair_problem" in frame.columns:
+        bad = [int(i) for i in np.flatnonzero(frame["pair_problem"].to_numpy())]
+        check.add(
+            bad,
+            "pair",
+            "a currency pair such as EURUSD or EUR/USD",
+            [str(frame["pair"].iloc[i]) for i in bad],
+        )
+    columns: dict[str, pa.Array | pd.Series] = {
+        "time": check.time("time", timezone),
+        "base": check.currency("base"),
+        "quote": check.currency("quote"),
+        "rate": check.decimal("rate", rule=">0", expected="a decimal > 0"),
+        "source": check.text("source", required=False),
+    }
+    if "pair_problem" in frame.columns:  # an unreadable pair is reported once, as the pair
+        rows = {int(check.rows[i]) for i in np.flatnonzero(frame["pair_problem"].to_numpy())}
+        check.problems = [
+            p for p in check.problems if not (p.column in ("base", "quote") and p.row in rows)
+        ]
+    same = _positions(
+        pc.and_(pc.equal(columns["base"], columns["quote"]), pc.not_equal(columns["base"], ""))
+    )
+    check.add(same, "quote", "a currency other than the base", _take(columns["quote"], same))
+    keep = np.ones(len(frame), dtype=bool)
+    result = _assemble(columns, frame, keep, [], check.rows)
+    _check_rate_clashes(check, result)
+    _raise(check)
+    result = result.drop_duplicates(["time", "base", "quote", "source", "rate"])
+    result = result.reset_index(drop=True)
+    result.attrs["canonical"] = True
+    result.attrs["read_summary"] = {"source": source, "rows_read": len(frame)}
+    return result
+
+
+def _split_pairs(frame: pd.DataFrame) -> pd.DataFrame:
+    text = frame["pair"].astype(str).str.strip()
+    parts = text.str.extract(_PAIR)
+    return frame.assign(
+        base=parts[0].fillna(""), quote=parts[1].fillna(""), pair_problem=parts[0].isna()
+    )
+
+
+def _check_rate_clashes(check: _Checker, rates: pd.DataFrame) -> None:
+    bad = {p.row for p in check.problems}
+    rates = rates[~rates[schema.SOURCE_ROW].isin(bad)]  # bad values are reported already
+    keys = ["time", "base", "quote", "source"]
+    distinct = rates.assign(rate=rates["rate"].astype(str)).drop_duplicates([*keys, "rate"])
+    clash = distinct[distinct.duplicated(keys, keep="first")]
+    for _, row in clash.iterrows():
+        first = distinct[(distinct[keys] == row[keys]).all(axis=1)].iloc[0]
+        check.problems.append(
+            Problem(
+                check.source,
+                f"one rate per pair, source and time (row {first[schema.SOURCE_ROW]} gives "
+                f"{first['rate']} for {row['base']}/{row['quote']} at that time)",
+                str(row["rate"]),
+                int(row[schema.SOURCE_ROW]),
+                "rate",
+                "two rates for one time",
+            )
+        )

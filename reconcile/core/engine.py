@@ -437,3 +437,23 @@ def _timeline(keyed: _Keyed) -> Iterator[tuple[pd.Timestamp, int, int, Fill | Fi
                 row["commission"],
             ),
         )
+
+
+#: The canonical rows of one (account, instrument): what :func:`replay_key` replays.
+KeyEvents = _Keyed
+
+
+def events_by_key(
+    fills: pd.DataFrame, financing: pd.DataFrame | None, opening: pd.DataFrame | None
+) -> dict[tuple[str, str], KeyEvents]:
+    """Canonical inputs split by (account, instrument), each row keeping its input order."""
+    return _events_by_key(fills, financing, opening)
+
+
+def replay_key(account: str, instrument: str, events: KeyEvents, method: str) -> KeyRun:
+    """Replay one key's rows on their own (the tie-out replays one key many times this way)."""
+    problems: list[Problem] = []
+    run = _run_key(account, instrument, events, RELIEF[method], problems)
+    raise_if_problems("inputs", problems)
+    assert run is not None, "a key that cannot be replayed reports a problem"
+    return run

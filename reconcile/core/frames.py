@@ -44,13 +44,13 @@ def build_frame(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> pd.Da
 
 
 def _array(name: str, values: list[Any]) -> pa.Array:
-    if name in schema.DECIMAL_COLUMNS:
+    if name in schema.DECIMAL_COLUMNS or name in schema.TIEOUT_DECIMAL_COLUMNS:
         return decimal_array(values)
-    if name in schema.TIME_COLUMNS:
+    if name in schema.TIME_COLUMNS or name in schema.TIEOUT_TIME_COLUMNS:
         return pa.array(values, pa.timestamp("ns", tz="UTC"))
     if name in schema.DURATION_COLUMNS:
         return pa.array(values, pa.duration("ns"))
-    if name in schema.INTEGER_COLUMNS:
+    if name in schema.INTEGER_COLUMNS or name in schema.TIEOUT_INTEGER_COLUMNS:
         return pa.array(values, pa.int64())
     return pa.array(values, pa.string())
 

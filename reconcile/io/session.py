@@ -10,6 +10,7 @@ import functools
 import json
 import sys
 from dataclasses import dataclass, field
+from decimal import Decimal
 from importlib.metadata import version
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -17,13 +18,20 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
+from reconcile.core.compare import MONEY, Tolerance
 from reconcile.core.matching import match_canonical
+from reconcile.core.period import make_period, utc_text
+from reconcile.core.tieout import TieOut, decimal_option, tie_out
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError
+from reconcile.io import readers
+from reconcile.io.config import TieOutConfig, read_config
 from reconcile.io.readers import read_marks, read_opening
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
 from reconcile.io.render import terminal
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, text_table, write_tables
+from reconcile.io.writers.tieout import write_tieout
+from reconcile.money import ZERO
 
 if TYPE_CHECKING:  # the fee audit's modules load with its first use (pydantic is slow to import)
     from reconcile.core.fees.audit import FeeAudit
@@ -338,6 +346,142 @@ def fee_manifest(audit: FeeAudit, inputs: FeeInputs) -> dict[str, Any]:
     }
 
 
+# --- reconcile tie-out -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class TieOutInputs:
+    inputs: Inputs
+    statement: pd.DataFrame
+    rates: pd.DataFrame | None
+    config: TieOutConfig
+
+    def summaries(self) -> list[dict[str, Any]]:
+        found = self.inputs.summaries()
+        found.append(
+            {
+                "source": _source(self.statement, "statement"),
+                "accepted": len(self.statement),
+                "kind": "statement rows",
+            }
+        )
+        if self.rates is not None:
+            found.append(
+                {
+                    "source": _source(self.rates, "rates"),
+                    "accepted": len(self.rates),
+                    "kind": "FX rates",
+                }
+            )
+        return found
+
+
+def _source(frame: pd.DataFrame, default: str) -> str:
+    summary = frame.attrs.get("read_summary")
+    return str(summary["source"]) if isinstance(summary, dict) else default
+
+
+def read_tieout_inputs(
+    fills: Path,
+    statement: Path,
+    *,
+    financing: Path | None = None,
+    opening: Path | None = None,
+    rates: Path | None = None,
+    config: Path | None = None,
+    timezone: str | None = None,
+    dedupe: bool = False,
+) -> TieOutInputs:
+    """Read every input of a tie-out first, so one bad file stops it before anything is written."""
+    return TieOutInputs(
+        inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe),
+        statement=readers.read_statement(statement),
+        rates=None if rates is None else readers.read_rates(rates, timezone=timezone),
+        config=read_config(config),
+    )
+
+
+def run_tieout(
+    read: TieOutInputs,
+    period: str | None,
+    *,
+    first: str | None = None,
+    last: str | None = None,
+    tolerance: str | None = None,
+    relative_tolerance: str | None = None,
+    cutoff: str | None = None,
+    **options: Any,
+) -> TieOut:
+    """Tie out with options from the command line over those of the config file."""
+    zone_name = read.inputs.timezone or "UTC"
+    span = make_period(period, first=first, last=last, timezone=zone_name, cutoff=cutoff)
+    config = read.config
+    absolute = config.absolute if tolerance is None else decimal_option(tolerance, "tolerance")
+    relative = (
+        config.relative
+        if relative_tolerance is None
+        else decimal_option(relative_tolerance, "relative tolerance")
+    )
+    with terminal.progress_bar("tying out"):
+        return tie_out(
+            read.inputs.fills,
+            read.statement,
+            span,
+            financing=read.inputs.financing,
+            opening=read.inputs.opening,
+            timezone=read.inputs.timezone,
+            tolerance=absolute if absolute is not None else 0,
+            relative_tolerance=relative if relative is not None else 0,
+            tolerances=measure_tolerances(config, absolute, relative),
+            rates=read.rates,
+            rate_source=config.fx_source,
+            limits=config.limits,
+            **options,
+        )
+
+
+def measure_tolerances(
+    config: TieOutConfig, absolute: Decimal | None, relative: Decimal | None
+) -> dict[str, Tolerance]:
+    """Per-measure tolerances; a money measure's unset field takes the general money one."""
+    general = Tolerance(absolute or ZERO, relative or ZERO)
+    rules = {}
+    for measure, given in config.by_measure.items():
+        money = measure in MONEY
+        rules[measure] = Tolerance(
+            given.get("absolute", general.absolute if money else ZERO),
+            given.get("relative", general.relative if money else ZERO),
+        )
+    return rules
+
+
+def tieout_manifest(result: TieOut, read: TieOutInputs, command: str) -> dict[str, Any]:
+    """What produced a tie-out: enough to reproduce it, nothing machine-specific."""
+    span = result.period
+    return {
+        "command": command,
+        "reconcile_version": version("reconcile"),
+        "period": {
+            "label": span.label,
+            "timezone": span.timezone,
+            "cutoff": None if span.cutoff is None else f"{span.cutoff:%H:%M}",
+            "start": utc_text(span.start),
+            "end": utc_text(span.end),
+            "describe": span.describe(),
+        },
+        "tz_database": tz_database_version(),
+        "method": result.method,
+        "commission": result.commission,
+        "rounding": result.rounding,
+        "base": result.base,
+        "tolerance_text": tolerance_text(result),
+        "inputs": read.summaries(),
+        "left_out": dict(result.left_out),
+        "counts": result.counts(),
+        "caution": CAUTION,
+    }
+
+
 def fee_document(audit: FeeAudit, inputs: FeeInputs) -> dict[str, Any]:
     """The whole audit as one JSON document: the manifest and every table as exact text."""
     tables = {
@@ -357,3 +501,28 @@ def _provenance(audit: FeeAudit, inputs: FeeInputs) -> list[str]:
         f"reconcile {version('reconcile')}; time-zone database {tz_database_version()}.",
         f"Schedule {inputs.schedule_path}; the tables beside this page hold every row exactly.",
     ]
+
+
+def tolerance_text(result: TieOut) -> str:
+    rules = result.tolerances
+    text = f"{rules.money.absolute.normalize():f} minor units"
+    if rules.money.relative:
+        text += f" or {rules.money.relative.normalize():f} of the statement's figure"
+    for measure, rule in rules.by_measure.items():
+        text += f"; {measure} {rule.absolute.normalize():f}"
+        if rule.relative:
+            text += f" or {rule.relative.normalize():f} relative"
+    return text
+
+
+def write_tieout_results(
+    result: TieOut, read: TieOutInputs, out: Path, formats: list[str]
+) -> list[Path]:
+    manifest = tieout_manifest(result, read, "tie-out")
+    return write_tieout(result, out, formats, manifest)
+
+
+def show_tieout(result: TieOut, read: TieOutInputs, written: list[Path]) -> None:
+    terminal.tieout_summary(
+        terminal.console(), result, read.summaries(), written, tz_database_version()
+    )

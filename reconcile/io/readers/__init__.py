@@ -10,6 +10,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from reconcile.core import canon
 from reconcile.core.canon import canonical_marks, canonical_opening
 from reconcile.io.readers.profiles import Profile, load_profile
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
@@ -24,7 +25,9 @@ __all__ = [
     "read_financing",
     "read_marks",
     "read_opening",
+    "read_rates",
     "read_source",
+    "read_statement",
     "read_table",
 ]
 
@@ -106,3 +109,17 @@ def read_marks(
     """Read marks (time, instrument, price, optional account) that price positions for financing."""
     raw = read_table(path, input_format)
     return canonical_marks(raw, source=str(path), timezone=timezone)
+
+
+def read_statement(path: Path | str, *, input_format: str | None = None) -> pd.DataFrame:
+    """Read and validate a statement to tie out against (the columns of docs/formats.md)."""
+    raw = read_table(path, input_format)
+    return canon.canonical_statement(raw, source=str(path))
+
+
+def read_rates(
+    path: Path | str, *, timezone: str | None = None, input_format: str | None = None
+) -> pd.DataFrame:
+    """Read FX rates (time, base, quote or pair, rate, optional source) for ``--base``."""
+    raw = read_table(path, input_format)
+    return canon.canonical_rates(raw, source=str(path), timezone=timezone)

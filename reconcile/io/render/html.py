@@ -32,7 +32,8 @@ class Table:
     frame: pd.DataFrame
     limit: int = DEFAULT_ROW_LIMIT
     note: str = ""
-    numeric: Sequence[str] | None = None
+    #: Columns of text already formatted as numbers, aligned as numbers too.
+    numeric: Sequence[str] = ()
 
 
 @dataclass(frozen=True)
@@ -98,10 +99,10 @@ def _header(table: Table) -> list[str]:
 
 def _numeric(table: Table) -> list[bool]:
     frame = table.frame
-    if table.numeric is not None:
-        return [c in table.numeric for c in frame.columns]
     return [
-        isinstance(frame[c].dtype, pd.ArrowDtype) or pd.api.types.is_numeric_dtype(frame[c])
+        isinstance(frame[c].dtype, pd.ArrowDtype)
+        or pd.api.types.is_numeric_dtype(frame[c])
+        or c in table.numeric
         for c in frame.columns
     ]
 

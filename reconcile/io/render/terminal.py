@@ -15,7 +15,9 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 from rich.table import Table
 
 from reconcile.core.book import Book
+from reconcile.core.compare import MONEY
 from reconcile.core.summary import currency_totals
+from reconcile.core.tieout import TieOut
 from reconcile.io.render.numbers import grouped
 from reconcile.io.render.stats_view import StatsView
 from reconcile.notice import CAUTION
@@ -205,3 +207,73 @@ def _column_chunks(view: StatsView, room: int) -> list[list[int]]:
         chunks[-1].append(n)
         used += width
     return chunks
+
+
+#: Breaks listed in the terminal; every one is in breaks.json and the other reports.
+SHOWN_BREAKS = 20
+
+
+def tieout_summary(
+    out: Console,
+    result: TieOut,
+    inputs: Sequence[Mapping[str, Any]],
+    written: Sequence[Path],
+    tz_database: str,
+) -> None:
+    for n, read in enumerate(inputs):
+        prefix = "Tied out" if n == 0 else "  with"
+        line = f"{prefix} {read['accepted']:,} {read['kind']} from {read['source']}"
+        if read.get("duplicates_dropped"):
+            line += f" ({read['duplicates_dropped']:,} exact repeats dropped)"
+        out.print(line)
+    out.print(f"Period {result.period.describe()}; time-zone database {tz_database}")
+    method = result.method.upper() if result.method != "average" else "average cost"
+    out.print(f"Relief {method}, commission {result.commission}, rounding {result.rounding}")
+    for what, count in result.left_out.items():
+        out.print(f"Left out {count:,} {what}")
+    out.print(_status_counts(result.counts()))
+    breaks = result.breaks
+    if len(breaks):
+        out.print(_breaks_table(breaks.head(SHOWN_BREAKS)))
+        for row in breaks.head(SHOWN_BREAKS).to_dict(orient="records"):
+            cause = row["explanation"] or row["note"]
+            label = row["top_cause"] or "unexplained"
+            out.print(f"#{row['line']} {label}: {cause}")
+        if len(breaks) > SHOWN_BREAKS:
+            out.print(f"... and {len(breaks) - SHOWN_BREAKS:,} more breaks in the reports")
+    else:
+        out.print("Every compared line ties within tolerance.")
+    if written:
+        folder = written[0].parent
+        out.print(f"Results in {folder}{os.sep}: " + ", ".join(p.name for p in written))
+    out.print(CAUTION, style="dim")
+
+
+def _status_counts(counts: Mapping[str, int]) -> Table:
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False)
+    for name in counts:
+        table.add_column(name, justify="right")
+    table.add_row(*(f"{n:,}" for n in counts.values()))
+    return table
+
+
+def _breaks_table(breaks: pd.DataFrame) -> Table:
+    table = Table(
+        title="Breaks", title_justify="left", box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False
+    )
+    table.add_column("#", justify="right")
+    for name in ("account", "instrument", "measure", "ccy"):
+        table.add_column(name, overflow="fold")  # a narrow terminal wraps names, never cuts them
+    for name in ("ours", "theirs", "difference"):
+        table.add_column(name, justify="right")
+    for row in breaks.astype(object).where(breaks.notna(), None).to_dict(orient="records"):
+        money = row["currency"] if row["measure"] in MONEY else None
+        table.add_row(
+            str(row["line"]),
+            row["account"],
+            row["instrument"] or "(account)",
+            row["measure"].replace("_", " "),
+            row["currency"],
+            *(grouped(row[c], money) for c in ("ours", "theirs", "difference")),
+        )
+    return table

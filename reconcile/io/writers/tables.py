@@ -62,8 +62,18 @@ def add_tables(
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 
 
-def text_table(frame: pd.DataFrame, *, spreadsheet_safe: bool = False) -> pd.DataFrame:
+#: Decimal places to show at least, per row, for columns whose rows mix money and other figures.
+RowPlaces = Mapping[str, np.ndarray]
+
+
+def text_table(
+    frame: pd.DataFrame, *, spreadsheet_safe: bool = False, places: RowPlaces | None = None
+) -> pd.DataFrame:
     """The table as exact text: amounts in the row's currency's minor unit, times in ISO 8601.
+
+    Money columns are known by name (:data:`reconcile.schema.MONEY_COLUMNS`). A column whose
+    rows are money in some rows only (a tie-out's ``difference`` of a P&L line and of a quantity
+    line) takes its per-row minimum places from ``places`` instead.
 
     With ``spreadsheet_safe``, text that a spreadsheet would run as a formula gets a leading
     apostrophe (``=HYPERLINK(..)`` -> ``'=HYPERLINK(..)``); the readers remove exactly that
@@ -72,7 +82,7 @@ def text_table(frame: pd.DataFrame, *, spreadsheet_safe: bool = False) -> pd.Dat
     out = pd.DataFrame(index=frame.index)
     currencies = frame["currency"] if "currency" in frame.columns else None
     for name in frame.columns:
-        column = _text_column(frame[name], name, currencies)
+        column = _text_column(frame[name], name, currencies, (places or {}).get(str(name)))
         if spreadsheet_safe and _is_text(frame[name]):
             column = column.map(neutralise, na_action="ignore")
         out[name] = column
@@ -90,12 +100,15 @@ def _is_text(series: pd.Series) -> bool:
     )
 
 
-def _text_column(series: pd.Series, name: str, currencies: pd.Series | None) -> pd.Series:
+def _text_column(
+    series: pd.Series, name: str, currencies: pd.Series | None, places: np.ndarray | None = None
+) -> pd.Series:
     """One column as text, whole-column (see :mod:`reconcile.io.writers.arrow_text`)."""
     dtype = series.dtype
     if isinstance(dtype, pd.ArrowDtype) and pa.types.is_decimal(dtype.pyarrow_dtype):
         money = name in schema.MONEY_COLUMNS and currencies is not None
-        places = _minor_units(currencies) if money and currencies is not None else None
+        if places is None and money and currencies is not None:
+            places = _minor_units(currencies)
         values = pa.array(series.array)
         text = arrow_text.decimal_texts(values, places, _one_decimal)
         return pd.Series(vectorised.string_series(text).array, index=series.index)
@@ -148,9 +161,10 @@ def decimal_text(value: Decimal | None, currency: str | None = None) -> str | No
     return f"{whole}.{fraction}" if fraction else whole
 
 
-def csv_bytes(frame: pd.DataFrame) -> bytes:
+def csv_bytes(frame: pd.DataFrame, places: RowPlaces | None = None) -> bytes:
     """The table as spreadsheet-safe CSV, exactly as :func:`write_tables` writes it."""
-    table = pa.Table.from_pandas(text_table(frame, spreadsheet_safe=True), preserve_index=False)
+    text = text_table(frame, spreadsheet_safe=True, places=places)
+    table = pa.Table.from_pandas(text, preserve_index=False)
     sink = pa.BufferOutputStream()
     pa_csv.write_csv(table, sink, pa_csv.WriteOptions(quoting_style="needed"))
     data: bytes = sink.getvalue().to_pybytes()
@@ -198,3 +212,18 @@ def _json_document(document: Any) -> Any:
 
 
 _WRITERS = {"csv": _csv, "parquet": _parquet, "json": _json}
+
+
+def table_writer(frame: pd.DataFrame, fmt: str, places: RowPlaces | None = None) -> Any:
+    """A writer of one table in ``fmt``, for :meth:`atomic.FileSet.add` with other files.
+
+    ``places`` is for CSV (see :func:`text_table`).
+    """
+    if places is not None and fmt == "csv":
+        return lambda path: path.write_bytes(csv_bytes(frame, places))
+    return _WRITERS[fmt](frame)
+
+
+def document_writer(document: Any) -> Any:
+    """A writer of one JSON document, for :meth:`atomic.FileSet.add` with other files."""
+    return _json_document(document)
