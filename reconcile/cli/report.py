@@ -17,6 +17,7 @@ from reconcile.cli._app import (
     reports_errors,
 )
 from reconcile.cli.stats import CalendarZone, FinancingFile, OpeningFile, Over, ZeroPnl
+from reconcile.errors import EXIT_FOUND
 
 
 @app.command("report")
@@ -32,6 +33,25 @@ def report_command(
     dedupe: Dedupe = False,
     over: Over = "round-trips",
     zero_pnl: ZeroPnl = "breakeven",
+    statement: Annotated[
+        Path | None,
+        typer.Option("--statement", metavar="FILE", help="Statement: add its tie-out (--period)."),
+    ] = None,
+    period: Annotated[
+        str | None, typer.Option("--period", metavar="YYYY-MM", help="Period of the tie-out.")
+    ] = None,
+    cutoff: Annotated[
+        str | None,
+        typer.Option("--cutoff", metavar="HH:MM", help="Local time a statement day ends."),
+    ] = None,
+    tolerance: Annotated[
+        str | None,
+        typer.Option("--tolerance", metavar="N", help="Tie-out tolerance in minor units."),
+    ] = None,
+    config: Annotated[
+        Path | None,
+        typer.Option("--config", metavar="FILE", help="Tie-out tolerances per measure, bounds."),
+    ] = None,
     schedule: Annotated[
         Path | None,
         typer.Option("--schedule", metavar="FILE", help="Fee schedule: add the fee audit."),
@@ -51,15 +71,25 @@ def report_command(
         typer.Option("--format", metavar="csv|parquet|json", help="Format of the tables written."),
     ] = "csv",
 ) -> None:
-    """One folder to open and send: report.html with charts, report.xlsx and every table."""
+    """One folder to open and send: report.html with charts, report.xlsx and every table.
+
+    With --statement and --period the tie-out is in it, with --schedule the fee audit; then the
+    exit code is 1 when breaks or fee leakage remain, as for tie-out and fees.
+    """
     from reconcile.io import reporting, session
 
     request = reporting.report_request(
         over=over, zero_pnl=zero_pnl, timezone=timezone, title=title, fmt=fmt
     )
     inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
-    parts = reporting.fee_parts(inputs, schedule, marks, method=method)
+    terms = {"method": method, "commission": commission, "rounding": rounding}
+    parts = reporting.tieout_parts(
+        inputs, statement, period, cutoff=cutoff, tolerance=tolerance, config=config, **terms
+    )
+    parts += reporting.fee_parts(inputs, schedule, marks, method=method)
     book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
     report = reporting.make_report(book, inputs, request, parts)
     written = reporting.write_report_folder(report, book, inputs, request, out)
     reporting.show_report(report, inputs, written)
+    if any(part.found for part in parts):
+        raise typer.Exit(EXIT_FOUND)  # breaks or fee leakage, as tie-out and fees exit

@@ -13,7 +13,7 @@ from collections.abc import Sequence
 from dataclasses import asdict, dataclass, replace
 from importlib.metadata import version
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Console
 
@@ -22,9 +22,10 @@ from reconcile.core.matching import check_choice
 from reconcile.core.stats import OVER, ZERO_PNL, Stats, check_by, stats
 from reconcile.errors import ConfigError, OutputError
 from reconcile.io.render import terminal
+from reconcile.io.render.html import Fact
 from reconcile.io.render.report import Report, ReportPart, ReportStats, build_report
 from reconcile.io.render.stats_view import view
-from reconcile.io.session import FeeInputs, Inputs, run_manifest
+from reconcile.io.session import FeeInputs, Inputs, TieOutInputs, run_manifest
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.report import write_report
 from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, json_records
@@ -33,6 +34,7 @@ from reconcile.timezones import tz_database_version, zone
 
 if TYPE_CHECKING:
     from reconcile.core.fees.audit import FeeAudit
+    from reconcile.core.tieout import TieOut
 
 STATS_FORMATS = ("table", "csv", "json")
 #: Width of the statistics table when it is written to a file rather than a terminal.
@@ -220,7 +222,7 @@ def fee_part(audit: FeeAudit, inputs: FeeInputs) -> ReportPart:
     ]
     tables = {f"fees_{name}": frame for name, frame in audit.tables().items()}
     facts = [fact for fact in page.sections[0].facts if fact.label.startswith("Leakage")]
-    return ReportPart(sections, tables, facts)
+    return ReportPart(sections, tables, facts, found=audit.has_leakage)
 
 
 def fee_parts(
@@ -235,3 +237,47 @@ def fee_parts(
 
     fee_inputs = fee_inputs_for(inputs, schedule, marks)
     return [fee_part(audit_fee_inputs(fee_inputs, method=method), fee_inputs)]
+
+
+def tieout_part(result: TieOut, read: TieOutInputs) -> ReportPart:
+    """The tie-out as part of the report: its sections, tables and the count of breaks."""
+    from reconcile.io.render.tieout_page import tieout_sections
+    from reconcile.io.session import tieout_manifest
+
+    manifest = tieout_manifest(result, read, "report")
+    sections = [
+        replace(section, heading=f"Tie-out: {section.heading}", anchor=f"tieout-{section.anchor}")
+        for section in tieout_sections(result, manifest)
+    ]
+    tables = {f"tieout_{name}": frame for name, frame in result.tables().items()}
+    breaks = len(result.breaks)
+    facts = [Fact("Breaks", f"{breaks:,}", "bad" if breaks else "good")]
+    return ReportPart(sections, tables, facts, found=bool(breaks))
+
+
+def tieout_parts(
+    inputs: Inputs,
+    statement: Path | None,
+    period: str | None,
+    *,
+    cutoff: str | None = None,
+    tolerance: str | None = None,
+    config: Path | None = None,
+    **options: Any,
+) -> list[ReportPart]:
+    """The tie-out's part of the report when a statement is given (none otherwise)."""
+    if statement is None:
+        if period is not None or cutoff is not None or config is not None:
+            raise ConfigError(
+                "--period, --cutoff and --config tie out a statement: give --statement"
+            )
+        return []
+    if period is None:
+        raise ConfigError("--statement: the tie-out needs --period (e.g. 2026-11)")
+    from reconcile.io import readers
+    from reconcile.io.config import read_config
+    from reconcile.io.session import run_tieout
+
+    read = TieOutInputs(inputs, readers.read_statement(statement), None, read_config(config))
+    result = run_tieout(read, period, cutoff=cutoff, tolerance=tolerance, **options)
+    return [tieout_part(result, read)]

@@ -33,7 +33,7 @@ def test_report_carries_the_fee_audit(workdir: Path) -> None:
         ["report", "fills.csv", "--schedule", _schedule(workdir), "--out", "out"],
         env={"COLUMNS": "100"},
     )
-    assert result.exit_code == 0, result.output
+    assert result.exit_code == 1, result.output  # the case leaks 31.50 USD (its README)
     html = (workdir / "out" / "report.html").read_text()
     assert 'id="fees-summary"' in html
     assert 'id="fees-findings"' in html
@@ -49,3 +49,39 @@ def test_marks_without_a_schedule_is_refused(workdir: Path) -> None:
     assert result.exit_code == 2
     assert "needs --schedule" in result.stderr
     assert not (workdir / "reconcile-report").exists()
+
+
+def test_report_carries_the_tie_out_and_exits_1_on_breaks(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    case = Path(__file__).parents[1] / "golden" / "tieout-cutoff"
+    for name in ("fills.csv", "statement.csv"):
+        shutil.copy(case / name, tmp_path / name)
+    monkeypatch.chdir(tmp_path)
+    args = [
+        "report",
+        "fills.csv",
+        "--statement",
+        "statement.csv",
+        "--period",
+        "2026-11",
+        "--timezone",
+        "America/New_York",
+        "--cutoff",
+        "17:00",
+        "--out",
+        "out",
+    ]
+    result = CliRunner().invoke(app, args, env={"COLUMNS": "100"})
+    assert result.exit_code == 1, result.output  # the golden case holds a cut-off break
+    html = (tmp_path / "out" / "report.html").read_text()
+    assert 'id="tieout-breaks"' in html
+    assert (tmp_path / "out" / "tieout_compared_lines.csv").exists()
+
+
+def test_a_statement_needs_a_period(workdir: Path) -> None:
+    result = CliRunner().invoke(
+        app, ["report", "fills.csv", "--statement", "fills.csv"], env={"COLUMNS": "100"}
+    )
+    assert result.exit_code == 2
+    assert "needs --period" in result.stderr

@@ -61,6 +61,8 @@ class ReportPart:
     sections: Sequence[Section] = ()
     tables: Mapping[str, pd.DataFrame] = field(default_factory=dict)
     facts: Sequence[Fact] = ()
+    #: Whether the part found what its command would exit 1 for (breaks, fee leakage).
+    found: bool = False
 
 
 @dataclass(frozen=True)

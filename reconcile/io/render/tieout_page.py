@@ -40,6 +40,13 @@ def about_lines(manifest: Mapping[str, Any]) -> list[str]:
 
 
 def tieout_page(result: TieOut, manifest: Mapping[str, Any]) -> str:
+    sections = tieout_sections(result, manifest)
+    page = Page(report_title(result), result.period.describe(), sections, about_lines(manifest))
+    return render_page(page)
+
+
+def tieout_sections(result: TieOut, manifest: Mapping[str, Any]) -> list[Section]:
+    """The tie-out as page sections: summary, breaks, fills involved, lines, conversions."""
     counts = result.counts()
     breaks = result.breaks
     summary = Section(
@@ -87,8 +94,7 @@ def tieout_page(result: TieOut, manifest: Mapping[str, Any]) -> str:
                 tables=[Table("Converted amounts", result.conversions)],
             )
         )
-    page = Page(report_title(result), result.period.describe(), sections, about_lines(manifest))
-    return render_page(page)
+    return sections
 
 
 def _breaks_section(result: TieOut, breaks: pd.DataFrame) -> Section:
