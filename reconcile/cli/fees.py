@@ -7,7 +7,16 @@ from typing import Annotated
 
 import typer
 
-from reconcile.cli._app import Dedupe, InputFile, Timezone, app, reports_errors
+from reconcile.cli._app import (
+    Dedupe,
+    FixLenient,
+    InputFile,
+    InputFormat,
+    ProfileFile,
+    Timezone,
+    app,
+    reports_errors,
+)
 
 
 @app.command("fees")
@@ -53,6 +62,9 @@ def fees_command(
     ] = "fifo",
     timezone: Timezone = None,
     dedupe: Dedupe = False,
+    profile: ProfileFile = None,
+    input_format: InputFormat = None,
+    fix_lenient: FixLenient = False,
     out: Annotated[
         Path | None,
         typer.Option("--out", metavar="DIR", help="Folder for the results [reconcile-out/fees]."),
@@ -67,9 +79,10 @@ def fees_command(
     """Audit commissions and financing against a fee schedule; exit 1 when anything leaks."""
     from reconcile.io import session
 
+    source = {"profile": profile, "input_format": input_format, "fix_lenient": fix_lenient}
     session.check_fee_format(fmt)
     inputs = session.read_fee_inputs(
-        fills, schedule, financing, marks, timezone=timezone, dedupe=dedupe
+        fills, schedule, financing, marks, timezone=timezone, dedupe=dedupe, **source
     )
     audit = session.audit_fee_inputs(inputs, period=period, tolerance=tolerance, method=method)
     session.report_fee_audit(audit, inputs, out, fmt)

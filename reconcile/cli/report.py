@@ -10,8 +10,11 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    FixLenient,
     InputFile,
+    InputFormat,
     Method,
+    ProfileFile,
     Rounding,
     app,
     reports_errors,
@@ -31,6 +34,9 @@ def report_command(
     rounding: Rounding = "half-even",
     timezone: CalendarZone = None,
     dedupe: Dedupe = False,
+    profile: ProfileFile = None,
+    input_format: InputFormat = None,
+    fix_lenient: FixLenient = False,
     over: Over = "round-trips",
     zero_pnl: ZeroPnl = "breakeven",
     statement: Annotated[
@@ -81,7 +87,16 @@ def report_command(
     request = reporting.report_request(
         over=over, zero_pnl=zero_pnl, timezone=timezone, title=title, fmt=fmt
     )
-    inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    inputs = session.read_inputs(
+        fills,
+        financing,
+        opening,
+        timezone=timezone,
+        dedupe=dedupe,
+        profile=profile,
+        input_format=input_format,
+        fix_lenient=fix_lenient,
+    )
     terms = {"method": method, "commission": commission, "rounding": rounding}
     parts = reporting.tieout_parts(
         inputs, statement, period, cutoff=cutoff, tolerance=tolerance, config=config, **terms

@@ -10,8 +10,11 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    FixLenient,
     InputFile,
+    InputFormat,
     Method,
+    ProfileFile,
     Rounding,
     app,
     reports_errors,
@@ -65,6 +68,9 @@ def stats_command(
     rounding: Rounding = "half-even",
     timezone: CalendarZone = None,
     dedupe: Dedupe = False,
+    profile: ProfileFile = None,
+    input_format: InputFormat = None,
+    fix_lenient: FixLenient = False,
     by: Annotated[
         list[str] | None,
         typer.Option(
@@ -88,6 +94,15 @@ def stats_command(
     request = reporting.stats_request(
         by or (), over=over, zero_pnl=zero_pnl, timezone=timezone, fmt=fmt
     )
-    inputs = session.read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe)
+    inputs = session.read_inputs(
+        fills,
+        financing,
+        opening,
+        timezone=timezone,
+        dedupe=dedupe,
+        profile=profile,
+        input_format=input_format,
+        fix_lenient=fix_lenient,
+    )
     book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
     reporting.show_stats(reporting.compute_stats(book, request), request, out)

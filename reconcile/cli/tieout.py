@@ -10,9 +10,12 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    FixLenient,
     InputFile,
+    InputFormat,
     Method,
     OutDir,
+    ProfileFile,
     Rounding,
     app,
     reports_errors,
@@ -89,6 +92,9 @@ def tie_out_command(
         typer.Option("--base", metavar="CCY", help="Currency to convert amounts into."),
     ] = None,
     dedupe: Dedupe = False,
+    profile: ProfileFile = None,
+    input_format: InputFormat = None,
+    fix_lenient: FixLenient = False,
     out: OutDir = Path("reconcile-out"),
     formats: Annotated[
         list[str] | None,
@@ -114,6 +120,9 @@ def tie_out_command(
         config=config,
         timezone=timezone,
         dedupe=dedupe,
+        profile=profile,
+        input_format=input_format,
+        fix_lenient=fix_lenient,
     )
     result = session.run_tieout(
         read,

@@ -234,12 +234,16 @@ def read_fee_inputs(
     *,
     timezone: str | None = None,
     dedupe: bool = False,
+    **source: Any,
 ) -> FeeInputs:
-    """Read the schedule first (a bad schedule stops the run before any large file is read)."""
+    """Read the schedule first (a bad schedule stops the run before any large file is read).
+
+    ``source`` options (profile, input_format, fix_lenient) go to :func:`read_inputs`.
+    """
     from reconcile.io.readers.schedule import read_schedule
 
     rules = read_schedule(schedule)
-    inputs = read_inputs(fills, financing, timezone=timezone, dedupe=dedupe)
+    inputs = read_inputs(fills, financing, timezone=timezone, dedupe=dedupe, **source)
     return fee_inputs_for(inputs, schedule, marks, rules)
 
 
@@ -391,10 +395,14 @@ def read_tieout_inputs(
     config: Path | None = None,
     timezone: str | None = None,
     dedupe: bool = False,
+    **source: Any,
 ) -> TieOutInputs:
-    """Read every input of a tie-out first, so one bad file stops it before anything is written."""
+    """Read every input of a tie-out first, so one bad file stops it before anything is written.
+
+    ``source`` options (profile, input_format, fix_lenient) go to :func:`read_inputs`.
+    """
     return TieOutInputs(
-        inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe),
+        inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe, **source),
         statement=readers.read_statement(statement),
         rates=None if rates is None else readers.read_rates(rates, timezone=timezone),
         config=read_config(config),
