@@ -140,3 +140,31 @@ def _root(
 
     Exit codes: 0 all good, 1 breaks or fee leakage found, 2 bad input or options.
     """
+
+
+FinancingFile = Annotated[
+    Path | None,
+    typer.Option(
+        "--financing", metavar="FILE", help="Financing events (swaps, borrow, dividends...)."
+    ),
+]
+OpeningFile = Annotated[
+    Path | None,
+    typer.Option("--opening", metavar="FILE", help="Open lots carried in from an earlier period."),
+]
+StatementPeriod = Annotated[
+    str | None,
+    typer.Option("--period", metavar="YYYY-MM", help="A month (2026-11) or a day (2026-11-30)."),
+]
+Cutoff = Annotated[
+    str | None,
+    typer.Option("--cutoff", metavar="HH:MM", help="Local time a statement day ends."),
+]
+Tolerance = Annotated[
+    str | None,
+    typer.Option("--tolerance", metavar="N", help="Allowed tie-out difference in minor units."),
+]
+TieOutConfig = Annotated[
+    Path | None,
+    typer.Option("--config", metavar="FILE", help="Tie-out tolerances per measure, search bounds."),
+]

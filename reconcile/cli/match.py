@@ -11,10 +11,12 @@ from reconcile.cli._app import (
     Commission,
     Dedupe,
     Engine,
+    FinancingFile,
     FixLenient,
     InputFile,
     InputFormat,
     Method,
+    OpeningFile,
     OutDir,
     ProfileFile,
     RejectsFile,
@@ -29,18 +31,8 @@ from reconcile.cli._app import (
 @reports_errors
 def match_command(
     fills: InputFile,
-    financing: Annotated[
-        Path | None,
-        typer.Option(
-            "--financing", metavar="FILE", help="Financing events (swaps, borrow, dividends...)."
-        ),
-    ] = None,
-    opening: Annotated[
-        Path | None,
-        typer.Option(
-            "--opening", metavar="FILE", help="Open lots carried in from an earlier period."
-        ),
-    ] = None,
+    financing: FinancingFile = None,
+    opening: OpeningFile = None,
     method: Method = "fifo",
     commission: Commission = "at-close",
     rounding: Rounding = "half-even",

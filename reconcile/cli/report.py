@@ -9,17 +9,23 @@ import typer
 
 from reconcile.cli._app import (
     Commission,
+    Cutoff,
     Dedupe,
+    FinancingFile,
     FixLenient,
     InputFile,
     InputFormat,
     Method,
+    OpeningFile,
     ProfileFile,
     Rounding,
+    StatementPeriod,
+    TieOutConfig,
+    Tolerance,
     app,
     reports_errors,
 )
-from reconcile.cli.stats import CalendarZone, FinancingFile, OpeningFile, Over, ZeroPnl
+from reconcile.cli.stats import CalendarZone, Over, ZeroPnl
 from reconcile.errors import EXIT_FOUND
 
 
@@ -43,21 +49,10 @@ def report_command(
         Path | None,
         typer.Option("--statement", metavar="FILE", help="Statement: add its tie-out (--period)."),
     ] = None,
-    period: Annotated[
-        str | None, typer.Option("--period", metavar="YYYY-MM", help="Period of the tie-out.")
-    ] = None,
-    cutoff: Annotated[
-        str | None,
-        typer.Option("--cutoff", metavar="HH:MM", help="Local time a statement day ends."),
-    ] = None,
-    tolerance: Annotated[
-        str | None,
-        typer.Option("--tolerance", metavar="N", help="Tie-out tolerance in minor units."),
-    ] = None,
-    config: Annotated[
-        Path | None,
-        typer.Option("--config", metavar="FILE", help="Tie-out tolerances per measure, bounds."),
-    ] = None,
+    period: StatementPeriod = None,
+    cutoff: Cutoff = None,
+    tolerance: Tolerance = None,
+    config: TieOutConfig = None,
     schedule: Annotated[
         Path | None,
         typer.Option("--schedule", metavar="FILE", help="Fee schedule: add the fee audit."),

@@ -10,26 +10,18 @@ import typer
 from reconcile.cli._app import (
     Commission,
     Dedupe,
+    FinancingFile,
     FixLenient,
     InputFile,
     InputFormat,
     Method,
+    OpeningFile,
     ProfileFile,
     Rounding,
     app,
     reports_errors,
 )
 
-FinancingFile = Annotated[
-    Path | None,
-    typer.Option(
-        "--financing", metavar="FILE", help="Financing events (swaps, borrow, dividends...)."
-    ),
-]
-OpeningFile = Annotated[
-    Path | None,
-    typer.Option("--opening", metavar="FILE", help="Open lots carried in from an earlier period."),
-]
 CalendarZone = Annotated[
     str | None,
     typer.Option(

@@ -9,14 +9,20 @@ import typer
 
 from reconcile.cli._app import (
     Commission,
+    Cutoff,
     Dedupe,
+    FinancingFile,
     FixLenient,
     InputFile,
     InputFormat,
     Method,
+    OpeningFile,
     OutDir,
     ProfileFile,
     Rounding,
+    StatementPeriod,
+    TieOutConfig,
+    Tolerance,
     app,
     reports_errors,
 )
@@ -36,26 +42,15 @@ def tie_out_command(
             show_default=False,
         ),
     ],
-    period: Annotated[
-        str | None,
-        typer.Option(
-            "--period", metavar="YYYY-MM", help="A month (2026-11) or a day (2026-11-30)."
-        ),
-    ] = None,
+    period: StatementPeriod = None,
     first: Annotated[
         str | None, typer.Option("--from", metavar="DATE", help="First day (with --to).")
     ] = None,
     last: Annotated[
         str | None, typer.Option("--to", metavar="DATE", help="Last day, included.")
     ] = None,
-    financing: Annotated[
-        Path | None,
-        typer.Option("--financing", metavar="FILE", help="Financing events (swaps, borrow...)."),
-    ] = None,
-    opening: Annotated[
-        Path | None,
-        typer.Option("--opening", metavar="FILE", help="Open lots at the period start."),
-    ] = None,
+    financing: FinancingFile = None,
+    opening: OpeningFile = None,
     method: Method = "fifo",
     commission: Commission = "at-close",
     rounding: Rounding = "half-even",
@@ -68,22 +63,13 @@ def tie_out_command(
             "an offset.",
         ),
     ] = None,
-    cutoff: Annotated[
-        str | None,
-        typer.Option("--cutoff", metavar="HH:MM", help="Local time a statement day ends."),
-    ] = None,
-    tolerance: Annotated[
-        str | None,
-        typer.Option("--tolerance", metavar="N", help="Allowed difference in minor units."),
-    ] = None,
+    cutoff: Cutoff = None,
+    tolerance: Tolerance = None,
     relative_tolerance: Annotated[
         str | None,
         typer.Option("--relative-tolerance", metavar="R", help="Allowed difference as a fraction."),
     ] = None,
-    config: Annotated[
-        Path | None,
-        typer.Option("--config", metavar="FILE", help="Tolerances per measure, search bounds."),
-    ] = None,
+    config: TieOutConfig = None,
     rates: Annotated[
         Path | None, typer.Option("--rates", metavar="FILE", help="FX rates (with --base).")
     ] = None,
