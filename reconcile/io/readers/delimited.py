@@ -154,6 +154,12 @@ def _csv_header(path: Path, text: str, dialect: Dialect) -> list[str]:
         raise SourceEmptyError(
             f"{path}: row {row} is blank; expected a header row naming the columns"
         )
+    check_header_names(path, names, row)
+    return first
+
+
+def check_header_names(path: Path, names: list[str], row: int) -> None:
+    """Every column named, and named once; raise with every problem (the header is ``row``)."""
     problems = [
         Problem(str(path), "a name for every column", "", row, f"#{i + 1}", "blank header")
         for i, name in enumerate(names)
@@ -175,7 +181,6 @@ def _csv_header(path: Path, text: str, dialect: Dialect) -> list[str]:
         seen.setdefault(name, i + 1)
     if problems:
         raise ValidationError(str(path), problems)
-    return first
 
 
 def _diagnose_csv(path: Path, header: list[str], dialect: Dialect, exc: Exception) -> InputError:

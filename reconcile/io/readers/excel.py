@@ -22,7 +22,8 @@ import pandas as pd
 import python_calamine
 
 from reconcile import schema
-from reconcile.errors import InputError, Problem, SourceEmptyError, ValidationError
+from reconcile.errors import InputError, Problem, SourceEmptyError
+from reconcile.io.readers.delimited import check_header_names
 from reconcile.money import places_of
 
 #: Places a numeric cell may carry when its column's places are not declared.
@@ -120,27 +121,7 @@ def _header_text(value: Any) -> str:
 def _check_header(path: Path, header: list[str], row: int) -> None:
     while header and not header[-1]:
         header.pop()
-    problems = [
-        Problem(str(path), "a name for every column", "", row, f"#{i + 1}", "blank header")
-        for i, name in enumerate(header)
-        if not name
-    ]
-    seen: dict[str, int] = {}
-    for i, name in enumerate(header):
-        if name and name in seen:
-            problems.append(
-                Problem(
-                    str(path),
-                    f"each column named once (also column #{seen[name]})",
-                    name,
-                    row,
-                    f"#{i + 1}",
-                    "repeated header",
-                )
-            )
-        seen.setdefault(name, i + 1)
-    if problems:
-        raise ValidationError(str(path), problems)
+    check_header_names(path, header, row)
 
 
 class _Converter:
