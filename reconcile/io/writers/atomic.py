@@ -36,15 +36,21 @@ class FileSet:
         self._staged: list[tuple[Path, Path]] = []
 
     def add(self, name: str, write: Writer) -> Path:
+        """Write one file under a temporary name; a failure to write (no permission, a full disk)
+        is an :class:`OutputError` naming the file, and the set is discarded by :func:`file_set`."""
         target = self.directory / name
-        handle, temporary = tempfile.mkstemp(
-            prefix=f".{name}.", suffix=".partial", dir=self.directory
-        )
-        os.close(handle)
-        staged = Path(temporary)
-        staged.chmod(_CREATE_MODE)  # mkstemp makes files owner-only; results are ordinary files
-        self._staged.append((staged, target))
-        write(staged)
+        try:
+            handle, temporary = tempfile.mkstemp(
+                prefix=f".{name}.", suffix=".partial", dir=self.directory
+            )
+            os.close(handle)
+            staged = Path(temporary)
+            self._staged.append((staged, target))
+            staged.chmod(_CREATE_MODE)  # mkstemp makes files owner-only; results are ordinary
+            write(staged)
+        except OSError as exc:
+            reason = exc.strerror or str(exc)
+            raise OutputError(f"{target}: cannot write results: {reason}") from exc
         return target
 
     def publish(self) -> list[Path]:
