@@ -94,13 +94,16 @@ def test_a_failed_write_leaves_nothing_behind(tmp_path: Path) -> None:
 
 
 def test_a_disk_error_is_an_output_error_naming_the_file(tmp_path: Path) -> None:
+    def whole(path: Path) -> None:
+        path.write_text("whole\n")
+
     def full_disk(path: Path) -> None:
         path.write_text("half")
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
     def write_both() -> None:
         with file_set(tmp_path) as files:
-            files.add("positions.csv", lambda path: path.write_text("whole\n"))
+            files.add("positions.csv", whole)
             files.add("closed_lots.csv", full_disk)
 
     with pytest.raises(OutputError) as raised:
