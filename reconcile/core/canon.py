@@ -446,7 +446,7 @@ def _take(values: pa.Array, positions: list[int]) -> list[str | None]:
 
 
 def _require(frame: pd.DataFrame, required: Sequence[str], source: str) -> None:
-    present = [str(c) for c in frame.columns]
+    present = [str(c) for c in frame.columns if c != schema.SOURCE_ROW]
     missing = [c for c in required if c not in present]
     if not missing:
         return
@@ -458,9 +458,23 @@ def _require(frame: pd.DataFrame, required: Sequence[str], source: str) -> None:
         )
     raise MissingColumnsError(
         f"{source}: missing required column{'s' if len(missing) > 1 else ''}: "
-        f"{', '.join(hints)}; the header has: {', '.join(present) or '(nothing)'}",
+        f"{', '.join(hints)}; the header has: {', '.join(present) or '(nothing)'}"
+        + _delimiter_hint(present),
         [Problem(source, "a column named " + m, None, 1, m, "missing column") for m in missing],
     )
+
+
+def _delimiter_hint(present: Sequence[str]) -> str:
+    """A header read as one column that holds another separator is the usual wrong delimiter."""
+    if len(present) != 1:
+        return ""
+    for mark, toml in ((";", '";"'), ("\t", '"\\t"'), ("|", '"|"')):
+        if mark in present[0]:
+            return (
+                f" (the header looks {mark!r}-separated: declare delimiter = {toml} under "
+                "[source] in a profile)"
+            )
+    return ""
 
 
 def _source_rows(frame: pd.DataFrame) -> np.ndarray:

@@ -128,3 +128,20 @@ def test_fix_lenient_warns_on_stderr(tmp_path: Path, monkeypatch: pytest.MonkeyP
 
 def test_help_lists_check() -> None:
     assert "check" in run("--help").stdout
+
+
+def test_an_unknown_kind_is_refused_before_reading(workdir: Path) -> None:
+    result = run("check", "missing.csv", "--kind", "statement")
+    assert result.exit_code == 2
+    assert result.stderr == "error: kind: expected one of fills, financing, found 'statement'\n"
+
+
+def test_a_semicolon_header_gets_a_hint(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("semi.csv").write_text("fill_id;account;instrument\nF1;A;X\n")
+    result = run("check", "semi.csv")
+    assert result.exit_code == 2
+    assert result.stderr.endswith(
+        "the header has: fill_id;account;instrument (the header looks ';'-separated: "
+        'declare delimiter = ";" under [source] in a profile)\n'
+    )

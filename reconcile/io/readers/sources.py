@@ -76,6 +76,8 @@ def read_source(
     fix_lenient: bool = False,
 ) -> Source:
     """Read, map and validate one input file (see the module docstring)."""
+    if kind not in _CANON:
+        raise ConfigError(f"kind: expected one of {', '.join(_CANON)}, found {kind!r}")
 
     def attempt(decimals: Sequence[str] = ()) -> Source:
         return _read_source(
