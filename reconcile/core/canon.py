@@ -451,8 +451,11 @@ def _require(frame: pd.DataFrame, required: Sequence[str], source: str) -> None:
     if not missing:
         return
     hints = []
+    # A column that is itself one of ours is not a misspelling of another (account is not amount).
+    ours = {*schema.FILL_COLUMNS, *schema.FINANCING_COLUMNS, *schema.OPENING_COLUMNS}
+    candidates = [c for c in present if c not in ours]
     for name in missing:
-        close = difflib.get_close_matches(name, present, n=1, cutoff=0.5)
+        close = difflib.get_close_matches(name, candidates, n=1, cutoff=0.5)
         hints.append(
             f"{name} (a column {close[0]!r} exists: rename it or use a profile)" if close else name
         )

@@ -145,3 +145,43 @@ def test_a_semicolon_header_gets_a_hint(tmp_path: Path, monkeypatch: pytest.Monk
         "the header has: fill_id;account;instrument (the header looks ';'-separated: "
         'declare delimiter = ";" under [source] in a profile)\n'
     )
+
+
+def test_a_file_with_no_usable_row_is_an_error_even_with_rejects(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("bad.csv").write_text(
+        "fill_id,account,instrument,side,quantity,price,time,currency\n"
+        "F1,A,X,hold,1,2,2026-11-02T10:00:00Z,USD\n"
+        "F2,A,X,buy,-1,2,2026-11-02T10:00:00Z,USD\n"
+    )
+    result = run("match", "bad.csv", "--rejects", "rejects.csv", "--out", "out")
+    assert result.exit_code == 2
+    assert result.stderr == (
+        "error: bad.csv: expected at least one usable row of fills, found none (2 rows read: 2 "
+        "rejected); `reconcile check` lists the problems\n"
+    )
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.csv"]
+
+
+def test_a_log_that_holds_no_fix_message_is_not_a_quiet_day(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("fills.log").write_text("fill_id,account\nF1,A\n")
+    result = run("check", "fills.log")
+    assert result.exit_code == 2
+    assert result.stderr == (
+        "error: fills.log: expected at least one usable row of fills, found none (2 rows read: "
+        "2 not a FIX message)\n"
+    )
+
+
+def test_a_header_only_file_is_a_day_without_trades(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("fills.csv").write_text("fill_id,account,instrument,side,quantity,price,time,currency\n")
+    assert run("check", "fills.csv").exit_code == 0
+    assert run("match", "fills.csv", "--out", "out").exit_code == 0
