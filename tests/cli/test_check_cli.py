@@ -185,3 +185,30 @@ def test_a_header_only_file_is_a_day_without_trades(
     Path("fills.csv").write_text("fill_id,account,instrument,side,quantity,price,time,currency\n")
     assert run("check", "fills.csv").exit_code == 0
     assert run("match", "fills.csv", "--out", "out").exit_code == 0
+
+
+@pytest.mark.parametrize(
+    ("args", "shown"),
+    [
+        (["match", "fills.csv", "--rejects", "fills.csv"], "--rejects fills.csv"),
+        (["stats", "fills.csv", "--format", "csv", "--out", "fills.csv"], "--out fills.csv"),
+        (["match", "closed_lots.csv", "--out", "."], "closed_lots.csv (to be written)"),
+    ],
+    ids=["rejects", "stats out", "a table over its input"],
+)
+def test_an_output_never_replaces_an_input(
+    args: list[str], shown: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    text = (CASE / "fills.csv").read_text()
+    for name in ("fills.csv", "closed_lots.csv"):
+        Path(name).write_text(text)
+    result = run(*args)
+    assert result.exit_code == 2, result.output
+    assert result.stderr == (
+        f"error: {shown}: expected a path that is not one of this run's inputs, found the input "
+        "itself; nothing was written\n"
+    )
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["closed_lots.csv", "fills.csv"]
+    assert Path("fills.csv").read_text() == text
+    assert Path("closed_lots.csv").read_text() == text

@@ -10,12 +10,40 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator
+from contextvars import ContextVar
 from pathlib import Path
 
 from reconcile.errors import OutputError
 
 Writer = Callable[[Path], None]
+
+#: The files this run reads; no file set may write over one of them (see :func:`protecting`).
+_PROTECTED: ContextVar[frozenset[Path]] = ContextVar("protected", default=frozenset())
+
+
+@contextlib.contextmanager
+def protecting(inputs: Iterable[Path]) -> Iterator[None]:
+    """While inside, writing a file that is one of ``inputs`` is an :class:`OutputError`: a slip
+    of the output name must never replace the broker file the run is reconciling."""
+    token = _PROTECTED.set(frozenset(_resolved(path) for path in inputs))
+    try:
+        yield
+    finally:
+        _PROTECTED.reset(token)
+
+
+def check_not_an_input(target: Path, option: str | None = None) -> None:
+    if _resolved(target) in _PROTECTED.get():
+        named = f"{option} {target}" if option else f"{target} (to be written)"
+        raise OutputError(
+            f"{named}: expected a path that is not one of this run's inputs, found the input "
+            "itself; nothing was written"
+        )
+
+
+def _resolved(path: Path) -> Path:
+    return Path(os.path.realpath(path))
 
 
 def _umask() -> int:
@@ -39,6 +67,7 @@ class FileSet:
         """Write one file under a temporary name; a failure to write (no permission, a full disk)
         is an :class:`OutputError` naming the file, and the set is discarded by :func:`file_set`."""
         target = self.directory / name
+        check_not_an_input(target)
         try:
             handle, temporary = tempfile.mkstemp(
                 prefix=f".{name}.", suffix=".partial", dir=self.directory
