@@ -10,6 +10,7 @@ import pytest
 
 import reconcile
 from reconcile.errors import ValidationError
+from reconcile.schema import Method
 from tests.builders import concat, fills, financing
 
 D = Decimal
@@ -277,7 +278,7 @@ def test_opening_lots_under_lot_methods_must_match_their_basis() -> None:
 @pytest.mark.parametrize("method", ["fifo", "average"])
 @pytest.mark.parametrize("blank", [True, False], ids=["blank cell", "no column"])
 def test_an_opening_lot_without_a_cost_basis_takes_quantity_times_price(
-    method: str, blank: bool
+    method: Method, blank: bool
 ) -> None:
     # The columns a position typed from a broker statement has (docs/formats.md: cost_basis is
     # optional); both engines must take quantity x open_price x multiplier as its basis.
