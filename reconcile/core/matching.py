@@ -4,13 +4,15 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+import numpy as np
 import pandas as pd
 
 from reconcile import schema
 from reconcile.core.book import Book, build_book
 from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
 from reconcile.core.engine import Progress, replay
-from reconcile.errors import ConfigError
+from reconcile.core.period import utc_text
+from reconcile.errors import ConfigError, Problem, raise_if_problems
 from reconcile.money import ROUNDING_MODES, Rounding, exact_arithmetic
 
 
@@ -85,12 +87,53 @@ def match_canonical(
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
     check_choice("engine", engine, schema.ENGINES)
+    if opening is not None:
+        check_carried_lots(fills, opening)
     if _use_fast(engine, sum(len(f) for f in (fills, financing, opening) if f is not None)):
         book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
         if book is not None:
             return book
     run = replay(fills, financing, opening, method, commission, progress)
     return build_book(run, method, rounding)
+
+
+def check_carried_lots(fills: pd.DataFrame, opening: pd.DataFrame) -> None:
+    """Carried lots stand for fills before these ones: a lot that is one of the fills, or that
+    opens after its key's first fill, would count that history twice (the usual slip: last
+    month's open lots with a fills file that still holds last month)."""
+    source, fill_source = _label(opening, "opening"), _label(fills, "fills")
+    rows = opening.reset_index(drop=True)
+    problems = []
+    seen = dict(zip(fills["fill_id"], fills[schema.SOURCE_ROW], strict=True))
+    for index in np.flatnonzero(rows["open_fill_id"].isin(seen).to_numpy()):
+        fill_id = rows["open_fill_id"].iloc[index]
+        problems.append(
+            Problem(
+                source,
+                f"a lot opened before these fills, not one of them ({fill_source} row "
+                f"{seen[fill_id]})",
+                fill_id,
+                int(rows[schema.SOURCE_ROW].iloc[index]),
+                "open_fill_id",
+                "lot is also a fill",
+            )
+        )
+    first = fills.groupby(["account", "instrument"], sort=False)["time"].min().rename("first")
+    joined = rows.join(first, on=["account", "instrument"])
+    for index in np.flatnonzero((joined["open_time"] > joined["first"]).to_numpy()):
+        row = joined.iloc[index]
+        problems.append(
+            Problem(
+                source,
+                f"an open time at or before the first fill of {row['account']} "
+                f"{row['instrument']} ({utc_text(row['first'])})",
+                utc_text(row["open_time"]),
+                int(row[schema.SOURCE_ROW]),
+                "open_time",
+                "lot opens after the fills",
+            )
+        )
+    raise_if_problems(source, sorted(problems, key=lambda p: (p.row or 0, p.column or "")))
 
 
 #: Below this many input rows the reference engine is done before the compiled kernel is loaded.

@@ -306,3 +306,24 @@ def test_an_opening_lot_without_a_cost_basis_takes_quantity_times_price(
         assert book.open_lots["cost_basis"].tolist() == [Decimal(270)]  # 30 x 9
     for name, table in books[0].tables().items():
         pd.testing.assert_frame_equal(table, books[1].tables()[name], check_dtype=False, obj=name)
+
+
+def test_carried_lots_that_repeat_the_fills_are_refused() -> None:
+    # The usual month-two slip: last month's open lots with a fills file that still holds last
+    # month. Counting that history twice would double the position (common practice: a carried
+    # lot stands for fills before the ones replayed).
+    history = fills([("b1", "buy", 10, "10", "2026-10-20"), ("s1", "sell", 4, "12", "2026-11-03")])
+    opening = reconcile.match(history.iloc[:1]).open_lots.copy()
+    opening["source_row"] = [2]
+    with pytest.raises(ValidationError) as caught:
+        reconcile.match(history, opening=opening)
+    assert [str(p) for p in caught.value.problems] == [
+        "opening row 2, column open_fill_id: expected a lot opened before these fills, not one "
+        "of them (fills row 2), found 'b1'"
+    ]
+
+
+def test_a_carried_lot_must_open_before_its_keys_fills() -> None:
+    opening = reconcile.match(fills([("b0", "buy", 10, "10", "2026-11-05")])).open_lots.copy()
+    with pytest.raises(ValidationError, match="open_time: expected an open time at or before"):
+        reconcile.match(fills([("s1", "sell", 4, "12", "2026-11-03")]), opening=opening)
