@@ -16,6 +16,7 @@ from fractions import Fraction
 
 from reconcile.core.fx import Quote, RateBook, RateChoice, convert
 from reconcile.core.keyfigures import Figures, Part
+from reconcile.errors import ConfigError
 from reconcile.money import ZERO, Rounding, currency_places, quantum, round_fraction, round_money
 
 Key = tuple[str, str]
@@ -31,6 +32,17 @@ class Tolerance:
 
     absolute: Decimal = ZERO
     relative: Decimal = ZERO
+
+    def __post_init__(self) -> None:
+        # A relative tolerance of 1 (100%) or more would let a line only the statement has (ours
+        # 0) pass as within tolerance, where it is always a break.
+        if not 0 <= self.relative < 1:
+            raise ConfigError(
+                "relative tolerance: expected a fraction of the statement's figure from 0 up to, "
+                f"not including, 1 (0.001 is 0.1%), found {self.relative}"
+            )
+        if self.absolute < 0:
+            raise ConfigError(f"tolerance: expected an amount >= 0, found {self.absolute}")
 
 
 @dataclass(frozen=True)

@@ -168,6 +168,10 @@ def test_a_bad_statement_exits_2_with_every_problem_and_writes_nothing(workdir: 
         (["--period", "2026-11", "--timezone", "Mars/Olympus"], "expected an IANA name"),
         (["--period", "2026-11", "--base", "USD"], "error: base: converting into a base"),
         (["--period", "2026-11", "--tolerance", "a lot"], "error: tolerance: expected a decimal"),
+        (
+            ["--period", "2026-11", "--relative-tolerance", "1"],
+            "error: relative tolerance: expected a fraction of the statement's figure from 0 up",
+        ),
         (["--from", "2026-11-01"], "error: period: expected a month YYYY-MM, a day YYYY-MM-DD"),
     ],
 )
