@@ -272,7 +272,7 @@ def replay(
             runs.append(run)
         if progress is not None and (done % 200 == 0 or done == total):
             progress(done, total)
-    raise_if_problems("inputs", problems)
+    _raise(problems)
     return EngineRun(runs, convention)
 
 
@@ -296,11 +296,24 @@ def _events_by_key(
 ) -> dict[tuple[str, str], _Keyed]:
     keyed: dict[tuple[str, str], _Keyed] = {}
     for name, frame in (("fills", fills), ("financing", financing), ("opening", opening)):
+        label = _label(frame, name)
         for position, row in enumerate(_records(frame)):
             row["_order"] = position
+            row["_source"] = label
             bucket = keyed.setdefault((row["account"], row["instrument"]), _Keyed())
             getattr(bucket, name).append(row)
     return keyed
+
+
+def _label(frame: pd.DataFrame | None, default: str) -> str:
+    """The file a canonical frame was read from (its read summary), else what it holds."""
+    summary = None if frame is None else frame.attrs.get("read_summary")
+    return str(summary["source"]) if isinstance(summary, dict) else default
+
+
+def _raise(problems: list[Problem]) -> None:
+    sources = {p.source for p in problems}
+    raise_if_problems(sources.pop() if len(sources) == 1 else "inputs", problems)
 
 
 def _run_key(
@@ -321,42 +334,39 @@ def _run_key(
 
 
 def _key_terms(keyed: _Keyed, problems: list[Problem]) -> tuple[str | None, Decimal | None]:
-    """Currency and multiplier of a key, which every input that names the key must share."""
+    """Currency and multiplier of a key, which every input that names the key must share; each
+    row that differs is a problem naming the row that set them."""
     first = (keyed.fills or keyed.opening or keyed.financing)[0]
     currency: str = first["currency"]
     multiplier: Decimal = first.get("multiplier") or Decimal(1)
-    for source, rows in (
-        ("fills", keyed.fills),
-        ("opening", keyed.opening),
-        ("financing", keyed.financing),
-    ):
-        for row in rows:
-            if row["currency"] != currency:
-                problems.append(
-                    Problem(
-                        source,
-                        f"currency {currency}, the currency of {row['account']} "
-                        f"{row['instrument']} elsewhere in the inputs",
-                        row["currency"],
-                        row.get("source_row"),
-                        "currency",
-                        "currency mismatch",
-                    )
+    where = f"{first.get('_source', 'the inputs')} row {first.get('source_row')}"
+    found = len(problems)
+    for row in (*keyed.fills, *keyed.opening, *keyed.financing):
+        key = f"{row['account']} {row['instrument']}"
+        if row["currency"] != currency:
+            problems.append(
+                Problem(
+                    row.get("_source", "inputs"),
+                    f"currency {currency}, the currency of {key} in {where}",
+                    row["currency"],
+                    row.get("source_row"),
+                    "currency",
+                    "currency mismatch",
                 )
-                return None, None
-            if "multiplier" in row and row["multiplier"] != multiplier:
-                problems.append(
-                    Problem(
-                        source,
-                        f"multiplier {multiplier}, the multiplier of {row['account']} "
-                        f"{row['instrument']} elsewhere in the inputs",
-                        str(row["multiplier"]),
-                        row.get("source_row"),
-                        "multiplier",
-                        "multiplier mismatch",
-                    )
+            )
+        elif "multiplier" in row and row["multiplier"] != multiplier:
+            problems.append(
+                Problem(
+                    row.get("_source", "inputs"),
+                    f"multiplier {multiplier}, the multiplier of {key} in {where}",
+                    str(row["multiplier"]),
+                    row.get("source_row"),
+                    "multiplier",
+                    "multiplier mismatch",
                 )
-                return None, None
+            )
+    if len(problems) > found:
+        return None, None
     return currency, multiplier
 
 
@@ -366,7 +376,7 @@ def _carry_in(run: KeyRun, rows: list[Row], problems: list[Problem]) -> bool:
         row = rows[-1]
         problems.append(
             Problem(
-                "opening",
+                row.get("_source", "inputs"),
                 f"every open lot of {run.account} {run.instrument} on one side",
                 row["direction"],
                 row.get("source_row"),
@@ -385,7 +395,7 @@ def _carry_in(run: KeyRun, rows: list[Row], problems: list[Problem]) -> bool:
         elif not run.relief.pooled and basis != expected:
             problems.append(
                 Problem(
-                    "opening",
+                    row.get("_source", "inputs"),
                     f"cost_basis = quantity x open_price x multiplier = {expected} under "
                     f"{run.relief.name}",
                     str(basis),
@@ -454,6 +464,6 @@ def replay_key(account: str, instrument: str, events: KeyEvents, method: str) ->
     """Replay one key's rows on their own (the tie-out replays one key many times this way)."""
     problems: list[Problem] = []
     run = _run_key(account, instrument, events, RELIEF[method], problems)
-    raise_if_problems("inputs", problems)
+    _raise(problems)
     assert run is not None, "a key that cannot be replayed reports a problem"
     return run

@@ -327,3 +327,19 @@ def test_a_carried_lot_must_open_before_its_keys_fills() -> None:
     opening = reconcile.match(fills([("b0", "buy", 10, "10", "2026-11-05")])).open_lots.copy()
     with pytest.raises(ValidationError, match="open_time: expected an open time at or before"):
         reconcile.match(fills([("s1", "sell", 4, "12", "2026-11-03")]), opening=opening)
+
+
+def test_every_row_of_another_input_that_disagrees_on_currency_is_named() -> None:
+    events = concat(
+        financing([("e1", "2026-11-03", "-1")], currency="EUR"),
+        financing([("e2", "2026-11-04", "-1")], currency="JPY"),
+    )
+    with pytest.raises(ValidationError) as caught:
+        reconcile.match(fills([("b1", "buy", 10, "10", "2026-11-02")]), events)
+    assert [str(p) for p in caught.value.problems] == [
+        "financing row 2, column currency: expected currency USD, the currency of A X in fills "
+        "row 2, found 'EUR'",
+        "financing row 3, column currency: expected currency USD, the currency of A X in fills "
+        "row 2, found 'JPY'",
+    ]
+    assert str(caught.value).startswith("financing: 2 problems found")
