@@ -310,7 +310,9 @@ class _Reader:
         does; problems of values are reported later, with every row's."""
         with contextlib.suppress(ValidationError):
             canonical_fills(
-                _frame(self.empty.empty_table()), source=options.source, timezone=options.timezone
+                _frame(_with_rows(self.empty).empty_table()),
+                source=options.source,
+                timezone=options.timezone,
             )
 
     def chunks(self) -> Iterator[pa.Table]:
