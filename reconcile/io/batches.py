@@ -190,8 +190,8 @@ def match_in_batches(
     kind = detect_format(path, input_format)
     if kind not in BATCH_FORMATS:
         raise ConfigError(
-            f"--batch-rows: reads fills as {', '.join(BATCH_FORMATS)}, not {kind} ({path}); "
-            "read this file whole, without --batch-rows"
+            f"--batch-rows: expected fills as csv, tsv or parquet, found {kind} ({path}); "
+            "match this file without --batch-rows"
         )
     options = _Options(str(path), timezone, dedupe, rejects is not None)
     reader = _Reader(path, kind)
