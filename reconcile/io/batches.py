@@ -76,8 +76,8 @@ from reconcile.money import ROUNDING_MODES, Rounding
 #: Input formats read in batches; the others are read whole (without ``--batch-rows``).
 BATCH_FORMATS = ("csv", "tsv", "parquet")
 #: Bytes of delimited text (or rows of Parquet) read at a time by the streaming passes.
-CHUNK_BYTES = 64 << 20
-CHUNK_ROWS = 1 << 20
+CHUNK_BYTES = 16 << 20
+CHUNK_ROWS = 1 << 18
 #: Rows per Parquet row group when a table is written whole (pyarrow's default).
 ROW_GROUP_ROWS = 1024 * 1024
 
