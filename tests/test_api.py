@@ -33,6 +33,7 @@ PUBLIC = [
     "read_rates",
     "read_statement",
     "tie_out",
+    "match_in_batches",
 ]
 
 

@@ -10,6 +10,7 @@ from one fill to more than the file holds.
 from __future__ import annotations
 
 import tempfile
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
@@ -18,6 +19,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
+import reconcile
 from reconcile.errors import ConfigError, ReconcileError, ValidationError
 from reconcile.io import session
 from reconcile.io.batches import match_in_batches
@@ -295,3 +297,27 @@ def test_a_failed_match_leaves_an_existing_folder_as_it_was(tmp_path: Path) -> N
     with pytest.raises(ValidationError):
         match_in_batches(write_csv(frame, tmp_path / "f.csv"), out, batch_rows=1)
     assert files_of(out) == {"positions.csv": b"earlier results\n"}
+
+
+def test_the_public_verb_reports_counts_totals_and_progress(tmp_path: Path) -> None:
+    fills_path = tmp_path / "fills.tsv"
+    two_keys().to_csv(fills_path, sep="\t", index=False)
+    ticks: list[tuple[int, int]] = []
+    run = reconcile.match_in_batches(
+        fills_path, tmp_path / "out", batch_rows=2, progress=lambda d, t: ticks.append((d, t))
+    )
+    assert ticks == [(1, 3), (2, 3), (3, 3)]  # A X, A Y, B Z: one key a batch
+    assert run.totals.counts == {
+        "closed_lots": 2,
+        "round_trips": 1,
+        "open_lots": 2,
+        "positions": 3,
+        "unattributed": 0,
+    }
+    # derived: A X sells 4 of 10 bought at 100.00 for 101.5 (+6.00); A Y shorts 5 at 20 and
+    # buys them back at 19.25 (+3.75); B Z only opens
+    totals = run.totals.currency_totals()
+    assert totals["currency"].tolist() == ["JPY", "USD"]
+    assert totals["realized_gross"].tolist() == [Decimal(0), Decimal("9.75")]
+    assert [p.name for p in run.written][-1] == "run.json"
+    assert run.inputs.summaries()[0]["accepted"] == 5
