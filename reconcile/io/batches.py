@@ -197,7 +197,7 @@ def match_in_batches(
     reader = _Reader(path, kind)
     reader.check_columns(options)
     directory = Path(out)
-    created = not directory.exists()
+    created = next((p for p in [*directory.parents][::-1] + [directory] if not p.exists()), None)
     directory.mkdir(parents=True, exist_ok=True)
     spill = _Spill(Path(tempfile.mkdtemp(prefix=".batches-", dir=directory)))
     try:
@@ -211,8 +211,8 @@ def match_in_batches(
         written = _publish(directory, staged, session.run_manifest("match", totals, inputs))
     except BaseException:
         shutil.rmtree(spill.root, ignore_errors=True)
-        if created:
-            shutil.rmtree(directory, ignore_errors=True)
+        if created is not None:  # the folders this run made, and only those
+            shutil.rmtree(created, ignore_errors=True)
         raise
     shutil.rmtree(spill.root, ignore_errors=True)
     session.finish_rejects(inputs, None if rejects is None else Path(rejects))

@@ -89,7 +89,7 @@ def mixed_places(draw: st.DrawFn) -> tuple[pd.DataFrame, pd.DataFrame]:
     convention=CONVENTIONS,
     fmt=st.sampled_from(["csv", "parquet", "json"]),
     engine=st.sampled_from(["auto", "reference", "fast"]),
-    batch_rows=st.integers(1, 120),
+    batch_rows=st.one_of(st.integers(1, 120), st.just(10**6)),
 )
 def test_batched_run_writes_the_whole_runs_files(
     data: tuple[pd.DataFrame, pd.DataFrame],
@@ -196,7 +196,8 @@ def errors_of(
     with pytest.raises(ReconcileError) as whole:
         whole_run(tmp_path / "whole", fills_path, **options)
     with pytest.raises(ReconcileError) as batched:
-        match_in_batches(fills_path, tmp_path / "batched", batch_rows=batch_rows, **options)
+        out = tmp_path / "batched" / "deeper"
+        match_in_batches(fills_path, out, batch_rows=batch_rows, **options)
     assert type(batched.value) is type(whole.value)
     assert not (tmp_path / "batched").exists()  # nothing written, no spill left behind
     return str(whole.value), str(batched.value)
