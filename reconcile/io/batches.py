@@ -53,6 +53,7 @@ from reconcile.errors import (
     InputError,
     OutputError,
     Problem,
+    ReconcileError,
     ValidationError,
     raise_if_problems,
 )
@@ -66,7 +67,7 @@ from reconcile.io.readers.delimited import (
     _head,
     _record_lines,
 )
-from reconcile.io.readers.sources import read_source, rejected_by_reason, rejects_of
+from reconcile.io.readers.sources import Source, read_source, rejected_by_reason, rejects_of
 from reconcile.io.readers.tabular import check_exists, detect_format
 from reconcile.io.session import Inputs
 from reconcile.io.writers.atomic import file_set
@@ -103,16 +104,26 @@ class _Plan:
     firsts: list[tuple[str, str]] = field(default_factory=list)  # each batch's first key
 
     def batch_ids(self, accounts: pa.Array, instruments: pa.Array) -> np.ndarray:
-        """The batch of each row, from its cleaned account and instrument."""
-        if not len(accounts):
-            return np.zeros(0, np.int64)
-        pairs = pd.MultiIndex.from_arrays(
-            [_strings(accounts), _strings(instruments)], names=["account", "instrument"]
-        )
-        known = pd.MultiIndex.from_tuples(self.keys, names=["account", "instrument"])
-        where = known.get_indexer(pairs)
-        batch = np.array([self.batch_of_key[k] for k in self.keys] + [0], dtype=np.int64)
-        found: np.ndarray = batch[where]
+        """The batch of each row of a fill key (whole columns: each name coded, then the pair)."""
+        if not hasattr(self, "_codes"):
+            names = [sorted({k[n] for k in self.keys}) for n in (0, 1)]
+            self._names = [pa.array(n, pa.string()) for n in names]
+            pairs = np.array(
+                [
+                    bisect.bisect_left(names[0], a) * len(names[1])
+                    + bisect.bisect_left(names[1], i)
+                    for a, i in self.keys
+                ],
+                dtype=np.int64,
+            )  # ascending, since the keys are sorted
+            self._codes = pairs
+            self._batches = np.array([self.batch_of_key[k] for k in self.keys], dtype=np.int64)
+        if not len(accounts) or not len(self.keys):
+            return np.zeros(len(accounts), np.int64)
+        a = np.asarray(pc.index_in(accounts, value_set=self._names[0]), dtype=np.int64)
+        i = np.asarray(pc.index_in(instruments, value_set=self._names[1]), dtype=np.int64)
+        where = np.searchsorted(self._codes, a * len(self._names[1]) + i)
+        found: np.ndarray = self._batches[where]
         return found
 
     def batch_of(self, key: tuple[str, str]) -> int:
@@ -197,17 +208,19 @@ def match_in_batches(
     reader = _Reader(path, kind)
     reader.check_columns(options)
     directory = Path(out)
-    created = next((p for p in [*directory.parents][::-1] + [directory] if not p.exists()), None)
+    outermost = [*reversed(directory.parents), directory]
+    created = next((p for p in outermost if not p.exists()), None)
     directory.mkdir(parents=True, exist_ok=True)
     spill = _Spill(Path(tempfile.mkdtemp(prefix=".batches-", dir=directory)))
     try:
         plan = _plan(reader, batch_rows)
         _spill_rows(reader, plan, spill)
-        checked = _validate(spill, plan, options, reader.empty)
-        inputs = _other_inputs(checked, options, financing, opening)
-        chosen = _engine(engine, checked, inputs)
-        run = _Matcher(method, commission, rounding, chosen, fmt, spill, plan, options, checked)
-        totals, staged = run.match_all(inputs, progress)
+        others = _Others.read(options, financing, opening)
+        run = _Matcher(method, commission, rounding, engine, fmt, spill, plan, options, others)
+        checked = _validate(spill, plan, options, reader.empty, run, progress)
+        others.raise_error()  # a bad fills file is named first, as a whole run names it
+        inputs = others.inputs(checked, options)
+        totals, staged = run.complete(checked, progress)
         written = _publish(directory, staged, session.run_manifest("match", totals, inputs))
     except BaseException:
         shutil.rmtree(spill.root, ignore_errors=True)
@@ -219,53 +232,74 @@ def match_in_batches(
     return BatchedMatch(totals, inputs, written)
 
 
-def _other_inputs(
-    checked: _Checked,
-    options: _Options,
-    financing: Path | str | None,
-    opening: Path | str | None,
-) -> Inputs:
-    """Financing and carried lots, read whole after the fills (a bad fills file is named
-    first, as a whole run names it), and the read summary of the fills."""
-    events = None
-    warnings: list[str] = []
-    rejected = [checked.rejects(options)] if options.keep_rejects else []
-    if financing is not None:
-        read = read_source(
-            Path(financing),
-            "financing",
+@dataclass
+class _Others:
+    """Financing and carried lots, read whole (they are small); an error reading them is held
+    until the fills are validated, so a bad fills file is named first, as a whole run names it."""
+
+    financing: Source | None = None
+    opening: pd.DataFrame | None = None
+    error: ReconcileError | None = None
+
+    @classmethod
+    def read(
+        cls, options: _Options, financing: Path | str | None, opening: Path | str | None
+    ) -> _Others:
+        found = cls()
+        try:
+            if financing is not None:
+                found.financing = read_source(
+                    Path(financing),
+                    "financing",
+                    timezone=options.timezone,
+                    dedupe=options.dedupe,
+                    keep_rejects=options.keep_rejects,
+                )
+            if opening is not None:
+                found.opening = read_opening(Path(opening), timezone=options.timezone)
+                found.opening.attrs["read_summary"] = {
+                    "source": str(opening),
+                    "accepted": len(found.opening),
+                }
+        except ReconcileError as error:
+            found.error = error
+        return found
+
+    @property
+    def events(self) -> pd.DataFrame | None:
+        return None if self.financing is None else self.financing.frame
+
+    def rows(self) -> int:
+        return sum(len(f) for f in (self.events, self.opening) if f is not None)
+
+    def raise_error(self) -> None:
+        if self.error is not None:
+            raise self.error
+
+    def inputs(self, checked: _Checked, options: _Options) -> Inputs:
+        """The run's inputs as the summary and run.json describe them."""
+        fills = pd.DataFrame()
+        fills.attrs["read_summary"] = checked.summary(options)
+        rejected = None
+        if options.keep_rejects:
+            parts = [checked.rejects(options)]
+            parts += [] if self.financing is None else [self.financing.rejected]
+            found = [r for r in parts if not r.empty]
+            rejected = pd.concat(found, ignore_index=True) if found else parts[0]
+        return Inputs(
+            fills=fills,
+            financing=self.events,
+            opening=self.opening,
             timezone=options.timezone,
-            dedupe=options.dedupe,
-            keep_rejects=options.keep_rejects,
+            rejected=rejected,
+            warnings=() if self.financing is None else tuple(self.financing.warnings),
         )
-        events, warnings = read.frame, read.warnings
-        rejected.append(read.rejected)
-    carried = None
-    if opening is not None:
-        carried = read_opening(Path(opening), timezone=options.timezone)
-        carried.attrs["read_summary"] = {"source": str(opening), "accepted": len(carried)}
-    fills = pd.DataFrame()
-    fills.attrs["read_summary"] = checked.summary(options)
-    found = [r for r in rejected if not r.empty]
-    return Inputs(
-        fills=fills,
-        financing=events,
-        opening=carried,
-        timezone=options.timezone,
-        rejected=(pd.concat(found, ignore_index=True) if found else rejected[0])
-        if rejected
-        else None,
-        warnings=tuple(warnings),
-    )
 
 
-def _engine(engine: schema.Engine, checked: _Checked, inputs: Inputs) -> schema.Engine:
+def _engine(engine: schema.Engine, rows: int) -> schema.Engine:
     """``auto`` chooses by the size of the whole input, as a whole run does."""
     if engine != "auto":
         return engine
-    rows = checked.accepted + sum(
-        len(f) for f in (inputs.financing, inputs.opening) if f is not None
-    )
     return "fast" if rows >= AUTO_FAST_ROWS else "reference"
 
 
@@ -417,32 +451,36 @@ def _plan(reader: _Reader, batch_rows: int) -> _Plan:
 def _spill_rows(reader: _Reader, plan: _Plan, spill: _Spill) -> None:
     buckets = max(1, min(256, plan.batches))
     for number, chunk in enumerate(reader.numbered(plan.rows)):
-        order = pa.array(np.argsort(_fill_batches(chunk, plan), kind="stable"))
-        chunk = chunk.take(order)
-        batch = _fill_batches(chunk, plan)
-        if not len(batch):
+        if not chunk.num_rows:
             continue
+        accounts, instruments = _key_text(chunk, "account"), _key_text(chunk, "instrument")
+        batch = plan.batch_ids(accounts, instruments)
+        order = np.argsort(batch, kind="stable")
+        batch, ordered = batch[order], chunk.take(pa.array(order))
         starts = np.flatnonzero(np.r_[True, batch[1:] != batch[:-1]])
         ends = np.r_[starts[1:], len(batch)]
         for start, end in zip(starts, ends, strict=True):
-            spill.write(chunk.slice(start, end - start), "batch", int(batch[start]), number)
-        _spill_ids(chunk, spill, buckets, number)
+            spill.write(ordered.slice(start, end - start), "batch", int(batch[start]), number)
+        _spill_ids(chunk, accounts, instruments, spill, buckets, number)
 
 
-def _fill_batches(chunk: pa.Table, plan: _Plan) -> np.ndarray:
-    return plan.batch_ids(_key_text(chunk, "account"), _key_text(chunk, "instrument"))
-
-
-def _spill_ids(chunk: pa.Table, spill: _Spill, buckets: int, number: int) -> None:
+def _spill_ids(
+    chunk: pa.Table,
+    accounts: pa.Array,
+    instruments: pa.Array,
+    spill: _Spill,
+    buckets: int,
+    number: int,
+) -> None:
     """Each row's fill id and key, by a hash of the id, so ids of two keys can be found."""
-    if "fill_id" not in chunk.column_names or not chunk.num_rows:
+    if "fill_id" not in chunk.column_names:
         return
     ids = _key_text(chunk, "fill_id")
     table = pa.table(
         {
             "fill_id": ids,
-            "account": _key_text(chunk, "account"),
-            "instrument": _key_text(chunk, "instrument"),
+            "account": accounts,
+            "instrument": instruments,
             schema.SOURCE_ROW: chunk.column(schema.SOURCE_ROW),
         }
     ).filter(pc.not_equal(ids, ""))
@@ -517,12 +555,20 @@ def _with_rows(empty: pa.Schema) -> pa.Schema:
     return empty.append(pa.field(schema.SOURCE_ROW, pa.int64()))
 
 
-def _validate(spill: _Spill, plan: _Plan, options: _Options, empty: pa.Schema) -> _Checked:
+def _validate(
+    spill: _Spill,
+    plan: _Plan,
+    options: _Options,
+    empty: pa.Schema,
+    run: _Matcher,
+    progress: Tick | None,
+) -> _Checked:
     """Every batch's problems at once, as one read of the whole file lists them; with
     ``keep_rejects``, rounds over every batch until what is left passes, as canon.screen does
-    over a whole frame."""
+    over a whole frame. The first round also matches each batch while none has failed."""
     checked = _Checked(empty, plan.rows)
     shared = _shared_ids(spill)
+    first = True
     while True:
         checked.scales, checked.accepted, checked.duplicates = {}, 0, 0
         problems: list[Problem] = []
@@ -531,10 +577,15 @@ def _validate(spill: _Spill, plan: _Plan, options: _Options, empty: pa.Schema) -
             raw = _raw_batch(spill, batch, empty, checked.excluded)
             if shared:
                 suspects.append(raw[raw[schema.SOURCE_ROW].isin(shared)])
-            found = _batch_problems(raw, options, checked)
+            found, fills = _batch_problems(raw, options, checked)
             if found and options.keep_rejects:
                 candidates.append(raw[raw[schema.SOURCE_ROW].isin([p.row for p in found])])
             problems += found
+            if first and fills is not None and run.matched == batch:
+                run.add(batch, _widen(fills, checked.scales))
+                if progress is not None:
+                    progress(batch + 1, plan.batches)
+        first = False
         problems = _whole_file(problems, suspects, options)
         if not problems:
             return checked
@@ -555,17 +606,19 @@ def _raw_batch(spill: _Spill, batch: int, empty: pa.Schema, excluded: set[int]) 
     return frame
 
 
-def _batch_problems(raw: pd.DataFrame, options: _Options, checked: _Checked) -> list[Problem]:
+def _batch_problems(
+    raw: pd.DataFrame, options: _Options, checked: _Checked
+) -> tuple[list[Problem], pd.DataFrame | None]:
     try:
         fills = _canonical(raw, options)
     except ValidationError as error:
-        return list(error.problems)
+        return list(error.problems), None
     for column in FILL_DECIMALS:
         kind = _arrow_type(fills[column])
         checked.scales[column] = max(checked.scales.get(column, 0), kind.scale)
     checked.accepted += len(fills)
     checked.duplicates += int(fills.attrs["read_summary"]["duplicates_dropped"])
-    return []
+    return [], fills
 
 
 def _canonical(raw: pd.DataFrame, options: _Options) -> pd.DataFrame:
@@ -631,6 +684,14 @@ def _ordered(problems: list[Problem]) -> list[Problem]:
 
 @dataclass
 class _Matcher:
+    """Matches batches in order and appends their tables.
+
+    Batches are matched as soon as they validate, with the places of the decimal columns seen so
+    far; :meth:`complete` then matches the rest. Only Parquet output depends on those places (and
+    on the engine ``auto`` picks): a batch matched with fewer places than the whole file has is
+    matched again for it, its part of each table replaced.
+    """
+
     method: schema.Method
     commission: schema.CommissionConvention
     rounding: Rounding
@@ -639,41 +700,84 @@ class _Matcher:
     spill: _Spill
     plan: _Plan
     options: _Options
-    checked: _Checked
+    others: _Others
+    matched: int = 0
+    problems: list[Problem] = field(default_factory=list)
 
-    def match_all(
-        self, inputs: Inputs, progress: Tick | None
+    def __post_init__(self) -> None:
+        self.chosen = _engine(self.engine, self.plan.rows + self.others.rows())
+        self._start()
+
+    def _start(self) -> None:
+        self.totals = BookTotals(self.method, self.commission, self.rounding)
+        self.sinks = _Sinks(self.spill.root, self.fmt)
+        self.financing = _by_batch(self.others.events, self.plan)
+        self.opening = _by_batch(self.others.opening, self.plan)
+        self.trips: dict[int, int] = {}  # trips numbered before each batch
+        self.numbered = 0
+        self.places: dict[int, dict[str, int]] = {}
+        self.engines: dict[int, str] = {}
+        self.matched = 0
+
+    def add(self, batch: int, fills: pd.DataFrame) -> None:
+        book = self._book(batch, fills)
+        self.matched = batch + 1
+        if book is None:
+            return
+        self.trips[batch] = self.numbered
+        book, self.numbered = _continue_trips(book, self.numbered)
+        self.totals.add(book)
+        self.sinks.add(batch, book)
+
+    def _book(self, batch: int, fills: pd.DataFrame) -> Book | None:
+        self.places[batch] = {c: _arrow_type(fills[c]).scale for c in FILL_DECIMALS}
+        self.engines[batch] = self.chosen
+        try:
+            return match_canonical(
+                fills,
+                self.financing(batch),
+                opening=self.opening(batch),
+                method=self.method,
+                commission=self.commission,
+                rounding=self.rounding,
+                engine=self.chosen,
+            )
+        except ValidationError as error:  # events that cannot apply: listed with the rest
+            self.problems += error.problems
+            return None
+
+    def complete(
+        self, checked: _Checked, progress: Tick | None
     ) -> tuple[BookTotals, dict[str, Path]]:
-        totals = BookTotals(self.method, self.commission, self.rounding)
-        sinks = _Sinks(self.spill.root, self.fmt)
-        financing = _by_batch(inputs.financing, self.plan)
-        opening = _by_batch(inputs.opening, self.plan)
-        problems: list[Problem] = []
-        trips = 0
-        for batch in range(self.plan.batches):
-            raw = _raw_batch(self.spill, batch, self.checked.empty, self.checked.excluded)
-            fills = _widen(_canonical(raw, self.options), self.checked.scales)
-            try:
-                book = match_canonical(
-                    fills,
-                    financing(batch),
-                    opening=opening(batch),
-                    method=self.method,
-                    commission=self.commission,
-                    rounding=self.rounding,
-                    engine=self.engine,
-                )
-            except ValidationError as error:  # events that cannot apply: listed with the rest
-                problems += error.problems
-                continue
-            if not problems:
-                book, trips = _continue_trips(book, trips)
-                totals.add(book)
-                sinks.add(book)
+        self.chosen = _engine(self.engine, checked.accepted + self.others.rows())
+        if checked.excluded:  # rows were set aside after the first round: match afresh
+            shutil.rmtree(self.sinks.folder)
+            self.problems = []
+            self._start()
+        if self.fmt == "parquet":
+            for batch in range(self.matched):
+                if self._stale(batch, checked.scales):
+                    self._again(batch, checked)
+        for batch in range(self.matched, self.plan.batches):
+            self.add(batch, self._fills(batch, checked))
             if progress is not None:
                 progress(batch + 1, self.plan.batches)
-        raise_if_problems("inputs", problems)
-        return totals, sinks.finish()
+        raise_if_problems("inputs", self.problems)
+        return self.totals, self.sinks.finish()
+
+    def _stale(self, batch: int, scales: dict[str, int]) -> bool:
+        fewer = any(self.places[batch][c] < scales.get(c, 0) for c in FILL_DECIMALS)
+        return fewer or self.engines[batch] != self.chosen
+
+    def _again(self, batch: int, checked: _Checked) -> None:
+        book = self._book(batch, self._fills(batch, checked))
+        if book is not None:
+            book, _ = _continue_trips(book, self.trips[batch])
+            self.sinks.add(batch, book)
+
+    def _fills(self, batch: int, checked: _Checked) -> pd.DataFrame:
+        raw = _raw_batch(self.spill, batch, checked.empty, checked.excluded)
+        return _widen(_canonical(raw, self.options), checked.scales)
 
 
 def _by_batch(frame: pd.DataFrame | None, plan: _Plan) -> Callable[[int], pd.DataFrame | None]:
@@ -739,19 +843,20 @@ class _Sinks:
         self.folder.mkdir()
         self.paths = {name: self.folder / f"{name}.{fmt}" for name in TABLES}
         self.batches = 0
-        self.parts: dict[str, list[Path]] = {name: [] for name in TABLES}
+        self.parts: dict[str, dict[int, Path]] = {name: {} for name in TABLES}
         self.first: dict[str, pd.DataFrame] = {}
-        self.widths: dict[str, dict[str, tuple[int, int]]] = {name: {} for name in TABLES}
+        self.widths: dict[tuple[str, int], dict[str, tuple[int, int]]] = {}
         self.json_rows = dict.fromkeys(TABLES, 0)
 
-    def add(self, book: Book) -> None:
+    def add(self, batch: int, book: Book) -> None:
+        """Append one batch's tables (Parquet: set them, replacing an earlier try)."""
         for name, frame in book.tables().items():
             if self.fmt == "csv":
                 self._csv(name, frame)
             elif self.fmt == "json":
                 self._json(name, frame)
             else:
-                self._spill_parquet(name, frame)
+                self._spill_parquet(name, batch, frame)
         self.batches += 1
 
     def finish(self) -> dict[str, Path]:
@@ -779,29 +884,34 @@ class _Sinks:
             handle.write(("[\n" if not self.json_rows[name] else ",\n") + items)
         self.json_rows[name] += len(records)
 
-    def _spill_parquet(self, name: str, frame: pd.DataFrame) -> None:
+    def _spill_parquet(self, name: str, batch: int, frame: pd.DataFrame) -> None:
         table = pa.Table.from_pandas(frame, preserve_index=False)
         self.first.setdefault(name, frame.head(0))
-        widths = self.widths[name]
-        for f in table.schema:
-            if pa.types.is_decimal(f.type):
-                whole, scale = widths.get(f.name, (1, 0))
-                kind = f.type
-                widths[f.name] = (max(whole, kind.precision - kind.scale), max(scale, kind.scale))
-        path = self.folder / f"{name}-{len(self.parts[name]):06d}.arrow"
+        self.widths[(name, batch)] = {
+            f.name: (f.type.precision - f.type.scale, f.type.scale)
+            for f in table.schema
+            if pa.types.is_decimal(f.type)
+        }
+        path = self.folder / f"{name}-{batch:06d}.arrow"
         with ipc.new_file(path, table.schema) as sink:
             sink.write_table(table)
-        self.parts[name].append(path)
+        self.parts[name][batch] = path
+
+    def _types(self, name: str) -> dict[str, pd.ArrowDtype]:
+        widest: dict[str, tuple[int, int]] = {}
+        for (table, _), widths in self.widths.items():
+            for column, (whole, scale) in widths.items() if table == name else ():
+                was = widest.get(column, (1, 0))
+                widest[column] = (max(was[0], whole), max(was[1], scale))
+        return {c: pd.ArrowDtype(_decimal(w, s)) for c, (w, s) in widest.items()}
 
     def _write_parquet(self, name: str) -> None:
-        empty = self.first[name].astype(
-            {c: pd.ArrowDtype(_decimal(w, s)) for c, (w, s) in self.widths[name].items()}
-        )
+        empty = self.first[name].astype(self._types(name))
         target = pa.Table.from_pandas(empty, preserve_index=False).schema
         pending: list[pa.Table] = []
         held = total = 0
         with pq.ParquetWriter(self.paths[name], target) as writer:
-            for path in self.parts[name]:
+            for _, path in sorted(self.parts[name].items()):
                 table = ipc.open_file(path).read_all().cast(target)
                 path.unlink()
                 pending.append(table)
