@@ -195,8 +195,8 @@ def errors_of(
     fills_path = write_csv(frame, tmp_path / "fills.csv")
     with pytest.raises(ReconcileError) as whole:
         whole_run(tmp_path / "whole", fills_path, **options)
+    out = tmp_path / "batched" / "deeper"
     with pytest.raises(ReconcileError) as batched:
-        out = tmp_path / "batched" / "deeper"
         match_in_batches(fills_path, out, batch_rows=batch_rows, **options)
     assert type(batched.value) is type(whole.value)
     assert not (tmp_path / "batched").exists()  # nothing written, no spill left behind
@@ -322,3 +322,34 @@ def test_the_public_verb_reports_counts_totals_and_progress(tmp_path: Path) -> N
     assert totals["realized_gross"].tolist() == [Decimal(0), Decimal("9.75")]
     assert [p.name for p in run.written][-1] == "run.json"
     assert run.inputs.summaries()[0]["accepted"] == 5
+
+
+@pytest.mark.parametrize("fmt", ["parquet", "csv"])
+def test_a_later_batch_with_more_places_retypes_the_earlier_ones(tmp_path: Path, fmt: str) -> None:
+    frame = two_keys()
+    frame.loc[4, "price"] = "7.0000"  # B Z, the last batch: the file's prices have 4 places
+    frame.loc[4, "quantity"] = "3.000"
+    fills_path = write_csv(frame, tmp_path / "fills.csv")
+    assert_same_run(tmp_path / "run", fills_path, 1, fmt=fmt)
+
+
+def test_events_that_cannot_apply_are_listed_from_every_batch(tmp_path: Path) -> None:
+    opening = pd.DataFrame(
+        [
+            {
+                "account": account,
+                "instrument": instrument,
+                "currency": "EUR",  # the fills of A X and B Z are in USD and JPY
+                "direction": "long",
+                "open_fill_id": f"OLD{n}",
+                "open_time": "2026-10-30T15:00:00+00:00",
+                "quantity": "2",
+                "open_price": "50",
+                "cost_basis": "100",
+            }
+            for n, (account, instrument) in enumerate([("A", "X"), ("B", "Z")])
+        ]
+    )
+    opening_path = write_csv(opening, tmp_path / "opening.csv")
+    whole, batched = errors_of(tmp_path, two_keys(), batch_rows=1, opening=opening_path)
+    assert batched == whole
