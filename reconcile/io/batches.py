@@ -103,26 +103,27 @@ class _Plan:
     rows: int
     firsts: list[tuple[str, str]] = field(default_factory=list)  # each batch's first key
 
+    def __post_init__(self) -> None:
+        # Each name is coded by its place among the sorted names, a pair by the two codes; the
+        # keys are sorted, so their pair codes ascend and a row's code is found by bisection.
+        names = [sorted({key[n] for key in self.keys}) for n in (0, 1)]
+        self._names = [pa.array(n, pa.string()) for n in names]
+        self._pairs = np.array(
+            [
+                bisect.bisect_left(names[0], a) * len(names[1]) + bisect.bisect_left(names[1], i)
+                for a, i in self.keys
+            ],
+            dtype=np.int64,
+        )
+        self._batches = np.array([self.batch_of_key[k] for k in self.keys], dtype=np.int64)
+
     def batch_ids(self, accounts: pa.Array, instruments: pa.Array) -> np.ndarray:
-        """The batch of each row of a fill key (whole columns: each name coded, then the pair)."""
-        if not hasattr(self, "_codes"):
-            names = [sorted({k[n] for k in self.keys}) for n in (0, 1)]
-            self._names = [pa.array(n, pa.string()) for n in names]
-            pairs = np.array(
-                [
-                    bisect.bisect_left(names[0], a) * len(names[1])
-                    + bisect.bisect_left(names[1], i)
-                    for a, i in self.keys
-                ],
-                dtype=np.int64,
-            )  # ascending, since the keys are sorted
-            self._codes = pairs
-            self._batches = np.array([self.batch_of_key[k] for k in self.keys], dtype=np.int64)
+        """The batch of each row of a fill key, over whole columns."""
         if not len(accounts) or not len(self.keys):
             return np.zeros(len(accounts), np.int64)
         a = np.asarray(pc.index_in(accounts, value_set=self._names[0]), dtype=np.int64)
         i = np.asarray(pc.index_in(instruments, value_set=self._names[1]), dtype=np.int64)
-        where = np.searchsorted(self._codes, a * len(self._names[1]) + i)
+        where = np.searchsorted(self._pairs, a * len(self._names[1]) + i)
         found: np.ndarray = self._batches[where]
         return found
 
@@ -154,7 +155,13 @@ class _Spill:
 
 @dataclass(frozen=True)
 class BatchedMatch:
-    """What a batched match produced: its totals, what it read, and the files it wrote."""
+    """What a batched match produced: its totals, what it read, and the files it wrote.
+
+    ``totals`` holds the row count of every table and the realized totals by currency
+    (``totals.currency_totals()``); ``inputs`` describes what was read (``inputs.summaries()``,
+    the rows set aside in ``inputs.rejected``); its ``fills`` frame is empty, since the fills are
+    never held whole. ``written`` lists the files published, ``run.json`` last.
+    """
 
     totals: BookTotals
     inputs: Inputs
