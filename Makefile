@@ -34,8 +34,8 @@ demo: $(STAMP)
 		--schedule sample_data/larkmoor-schedule.toml \
 		--financing sample_data/fees-planted/financing.csv --marks sample_data/marks.csv \
 		--format html --out $(DEMO_OUT)/fees-planted || test $$? -eq 1
-	# The month-end pack: statistics, the tie-out and the fee audit on one page (exit 1: the
-	# planted break and the late borrow fee are found).
+	# The month-end pack: statistics, the tie-out and the fee audit on one page; --period bounds
+	# both to November (exit 1: the planted break is found; the late borrow fee is October's).
 	$(BIN)/reconcile report sample_data/fills.csv --financing sample_data/financing.csv \
 		--timezone America/New_York --title "Larkmoor Capital: October and November 2026" \
 		--statement sample_data/statement.csv --period 2026-11 --cutoff 17:00 \

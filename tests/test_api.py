@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
 import reconcile
 
@@ -66,3 +67,9 @@ def test_every_error_maps_to_an_exit_code() -> None:
         error_class = getattr(errors, name)
         assert issubclass(error_class, errors.ReconcileError)
         assert error_class.exit_code == errors.EXIT_BAD_INPUT
+
+
+def test_every_public_name_is_documented() -> None:
+    text = (Path(__file__).parents[1] / "docs" / "api.md").read_text()
+    missing = [name for name in reconcile.__all__ if f"`{name}" not in text]
+    assert missing == []

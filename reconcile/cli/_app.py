@@ -25,13 +25,24 @@ P = ParamSpec("P")
 T = TypeVar("T")
 
 
+#: Options that name what a command writes; every other path option is an input it reads.
+OUTPUTS = ("out", "rejects")
+
+
 def reports_errors(command: Callable[P, T]) -> Callable[P, T]:
     """Turn a deliberate error into a message on stderr and its exit code, never a traceback."""
 
     @functools.wraps(command)
     def wrapper(*args: P.args, **kwargs: P.kwargs) -> T:
+        from reconcile.io.writers.atomic import check_not_an_input, protecting
+
+        inputs = [v for k, v in kwargs.items() if isinstance(v, Path) and k not in OUTPUTS]
         try:
-            return command(*args, **kwargs)
+            with protecting(inputs):
+                for name in OUTPUTS:
+                    if isinstance(kwargs.get(name), Path):
+                        check_not_an_input(kwargs[name], f"--{name}")  # type: ignore[arg-type]
+                return command(*args, **kwargs)
         except ReconcileError as error:
             print(f"error: {error}", file=sys.stderr)
             raise typer.Exit(error.exit_code) from None

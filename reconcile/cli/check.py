@@ -35,7 +35,8 @@ def check_command(
 ) -> None:
     """Validate a file: rows read, accepted and rejected by reason, and the first problems.
 
-    Exits 0 when every row is accepted, 2 when any is rejected or the file cannot be read.
+    Exits 0 when every row is accepted, 2 when any is rejected, none is usable or the file cannot
+    be read.
     """
     from reconcile.io import session
 

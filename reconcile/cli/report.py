@@ -92,11 +92,19 @@ def report_command(
         input_format=input_format,
         fix_lenient=fix_lenient,
     )
-    terms = {"method": method, "commission": commission, "rounding": rounding}
-    parts = reporting.tieout_parts(
-        inputs, statement, period, cutoff=cutoff, tolerance=tolerance, config=config, **terms
+    parts = reporting.report_parts(
+        inputs,
+        statement=statement,
+        period=period,
+        schedule=schedule,
+        marks=marks,
+        method=method,
+        commission=commission,
+        rounding=rounding,
+        cutoff=cutoff,
+        tolerance=tolerance,
+        config=config,
     )
-    parts += reporting.fee_parts(inputs, schedule, marks, method=method)
     book = session.match_inputs(inputs, method=method, commission=commission, rounding=rounding)
     report = reporting.make_report(book, inputs, request, parts)
     written = reporting.write_report_folder(report, book, inputs, request, out)

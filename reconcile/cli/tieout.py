@@ -81,7 +81,7 @@ def tie_out_command(
     profile: ProfileFile = None,
     input_format: InputFormat = None,
     fix_lenient: FixLenient = False,
-    out: OutDir = Path("reconcile-out"),
+    out: OutDir = Path("reconcile-out") / "tieout",
     formats: Annotated[
         list[str] | None,
         typer.Option(

@@ -451,21 +451,38 @@ def _take(values: pa.Array, positions: list[int]) -> list[str | None]:
 
 
 def _require(frame: pd.DataFrame, required: Sequence[str], source: str) -> None:
-    present = [str(c) for c in frame.columns]
+    present = [str(c) for c in frame.columns if c != schema.SOURCE_ROW]
     missing = [c for c in required if c not in present]
     if not missing:
         return
     hints = []
+    # A column that is itself one of ours is not a misspelling of another (account is not amount).
+    ours = {*schema.FILL_COLUMNS, *schema.FINANCING_COLUMNS, *schema.OPENING_COLUMNS}
+    candidates = [c for c in present if c not in ours]
     for name in missing:
-        close = difflib.get_close_matches(name, present, n=1, cutoff=0.5)
+        close = difflib.get_close_matches(name, candidates, n=1, cutoff=0.5)
         hints.append(
             f"{name} (a column {close[0]!r} exists: rename it or use a profile)" if close else name
         )
     raise MissingColumnsError(
         f"{source}: missing required column{'s' if len(missing) > 1 else ''}: "
-        f"{', '.join(hints)}; the header has: {', '.join(present) or '(nothing)'}",
+        f"{', '.join(hints)}; the header has: {', '.join(present) or '(nothing)'}"
+        + _delimiter_hint(present),
         [Problem(source, "a column named " + m, None, 1, m, "missing column") for m in missing],
     )
+
+
+def _delimiter_hint(present: Sequence[str]) -> str:
+    """A header read as one column that holds another separator is the usual wrong delimiter."""
+    if len(present) != 1:
+        return ""
+    for mark, toml in ((";", '";"'), ("\t", '"\\t"'), ("|", '"|"')):
+        if mark in present[0]:
+            return (
+                f" (the header looks {mark!r}-separated: declare delimiter = {toml} under "
+                "[source] in a profile)"
+            )
+    return ""
 
 
 def _source_rows(frame: pd.DataFrame) -> np.ndarray:

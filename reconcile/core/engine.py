@@ -380,7 +380,7 @@ def _carry_in(run: KeyRun, rows: list[Row], problems: list[Problem]) -> bool:
             EXACT.multiply(row["quantity"], row["open_price"]), run.multiplier
         )
         basis = row.get("cost_basis")
-        if basis is None:
+        if basis is None or basis is pd.NA:  # the column is optional, and a cell may be blank
             basis = expected
         elif not run.relief.pooled and basis != expected:
             problems.append(

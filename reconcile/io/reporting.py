@@ -25,10 +25,10 @@ from reconcile.io.render import terminal
 from reconcile.io.render.html import Fact
 from reconcile.io.render.report import Report, ReportPart, ReportStats, build_report
 from reconcile.io.render.stats_view import view
-from reconcile.io.session import FeeInputs, Inputs, TieOutInputs, run_manifest
+from reconcile.io.session import FeeInputs, Inputs, TieOutInputs, fee_manifest, run_manifest
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.report import write_report
-from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, json_records
+from reconcile.io.writers.tables import TABLE_FORMATS, csv_bytes, decimal_text, json_records
 from reconcile.notice import CAUTION
 from reconcile.timezones import tz_database_version, zone
 
@@ -184,6 +184,7 @@ def write_report_folder(
         k: v for k, v in asdict(request.statistics).items() if k not in ("fmt", "by")
     }
     manifest["tables"] = {name: len(frame) for name, frame in report.tables.items()}
+    manifest.update(report.manifest)
     return write_report(report, out, request.fmt, manifest)
 
 
@@ -196,6 +197,8 @@ def show_report(report: Report, inputs: Inputs, written: Sequence[Path]) -> None
     )
     page, workbook, *tables = written
     out.print(f"Open {page}")
+    for line in report.summaries:
+        out.print(line)
     out.print(f"Workbook {workbook}; {len(tables) - 1} tables and run.json beside them")
     out.print(CAUTION, style="dim")
 
@@ -222,13 +225,22 @@ def fee_part(audit: FeeAudit, inputs: FeeInputs) -> ReportPart:
     ]
     tables = {f"fees_{name}": frame for name, frame in audit.tables().items()}
     facts = [fact for fact in page.sections[0].facts if fact.label.startswith("Leakage")]
-    return ReportPart(sections, tables, facts, found=audit.has_leakage)
+    manifest = {"fees": _part_manifest(fee_manifest(audit, inputs))}
+    leakage = [f"{decimal_text(v, code)} {code}" for code, v in audit.leakage().items() if v]
+    summary = "Fee audit: " + (f"leakage {', '.join(leakage)}" if leakage else "no leakage")
+    return ReportPart(sections, tables, facts, audit.has_leakage, manifest, summary)
 
 
 def fee_parts(
-    inputs: Inputs, schedule: Path | None, marks: Path | None, *, method: str
+    inputs: Inputs,
+    schedule: Path | None,
+    marks: Path | None,
+    *,
+    method: str,
+    period: str | None = None,
 ) -> list[ReportPart]:
-    """The fee audit's part of the report when a schedule is given (none otherwise)."""
+    """The fee audit's part of the report when a schedule is given (none otherwise); with a
+    ``period`` (the report's) the audit covers that period only, as ``reconcile fees --period``."""
     if schedule is None:
         if marks is not None:
             raise ConfigError("--marks: prices financing for the fee audit, which needs --schedule")
@@ -236,7 +248,34 @@ def fee_parts(
     from reconcile.io.session import audit_fee_inputs, fee_inputs_for
 
     fee_inputs = fee_inputs_for(inputs, schedule, marks)
-    return [fee_part(audit_fee_inputs(fee_inputs, method=method), fee_inputs)]
+    audit = audit_fee_inputs(fee_inputs, method=method, period=period)
+    return [fee_part(audit, fee_inputs)]
+
+
+def _part_manifest(manifest: dict[str, Any]) -> dict[str, Any]:
+    """A command's manifest as an entry of the report's: without what the report says once."""
+    shared = ("command", "reconcile_version", "tz_database", "caution")
+    return {name: value for name, value in manifest.items() if name not in shared}
+
+
+def report_parts(
+    inputs: Inputs,
+    *,
+    statement: Path | None = None,
+    period: str | None = None,
+    schedule: Path | None = None,
+    marks: Path | None = None,
+    method: str = "fifo",
+    **tieout_options: Any,
+) -> list[ReportPart]:
+    """The tie-out (with a statement) and the fee audit (with a schedule) for the report; the
+    ``period`` bounds both."""
+    if period is not None and statement is None and schedule is None:
+        raise ConfigError(
+            "--period: bounds the tie-out (--statement) and the fee audit (--schedule); give one"
+        )
+    parts = tieout_parts(inputs, statement, period, method=method, **tieout_options)
+    return parts + fee_parts(inputs, schedule, marks, method=method, period=period)
 
 
 def tieout_part(result: TieOut, read: TieOutInputs) -> ReportPart:
@@ -252,7 +291,9 @@ def tieout_part(result: TieOut, read: TieOutInputs) -> ReportPart:
     tables = {f"tieout_{name}": frame for name, frame in result.tables().items()}
     breaks = len(result.breaks)
     facts = [Fact("Breaks", f"{breaks:,}", "bad" if breaks else "good")]
-    return ReportPart(sections, tables, facts, found=bool(breaks))
+    summary = f"Tie-out of {result.period.label}: {breaks:,} break{'' if breaks == 1 else 's'}"
+    entry = {"tie_out": _part_manifest(manifest)}
+    return ReportPart(sections, tables, facts, bool(breaks), entry, summary)
 
 
 def tieout_parts(
@@ -267,10 +308,8 @@ def tieout_parts(
 ) -> list[ReportPart]:
     """The tie-out's part of the report when a statement is given (none otherwise)."""
     if statement is None:
-        if period is not None or cutoff is not None or config is not None:
-            raise ConfigError(
-                "--period, --cutoff and --config tie out a statement: give --statement"
-            )
+        if cutoff is not None or config is not None:
+            raise ConfigError("--cutoff and --config tie out a statement: give --statement")
         return []
     if period is None:
         raise ConfigError("--statement: the tie-out needs --period (e.g. 2026-11)")

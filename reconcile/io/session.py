@@ -23,11 +23,11 @@ from reconcile.core.matching import match_canonical
 from reconcile.core.period import make_period, utc_text
 from reconcile.core.summary import BookTotals
 from reconcile.core.tieout import TieOut, decimal_option, tie_out
-from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError
+from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError, InputError
 from reconcile.io import readers
 from reconcile.io.config import TieOutConfig, read_config
 from reconcile.io.readers import read_marks, read_opening
-from reconcile.io.readers.sources import ProfileLike, Source, read_source
+from reconcile.io.readers.sources import ProfileLike, Source, nothing_usable, read_source
 from reconcile.io.render import terminal
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, text_table, write_tables
@@ -95,6 +95,10 @@ def read_inputs(
         events_read = options(financing, "financing")
         sources.append(events_read)
         events = events_read.frame
+    for source, kind in zip(sources, ("fills", "financing"), strict=False):
+        reason = nothing_usable(source.summary, kind)
+        if reason is not None:
+            raise InputError(f"{reason}; `reconcile check` lists the problems")
     return Inputs(
         fills=read.frame,
         financing=events,
@@ -224,7 +228,10 @@ def check_file(
         write_rejects(read.rejected, rejects)
     terminal.warnings(terminal.console(stderr=True), read.warnings)
     terminal.check_summary(terminal.console(), read.summary, read.problems, rejects)
-    return EXIT_BAD_INPUT if len(read.rejected) else EXIT_OK
+    unusable = nothing_usable(read.summary, kind)
+    if unusable is not None:
+        print(f"error: {unusable}", file=sys.stderr)  # unwrapped, as every other error
+    return EXIT_BAD_INPUT if len(read.rejected) or unusable else EXIT_OK
 
 
 # The fee audit (reconcile fees).

@@ -128,3 +128,87 @@ def test_fix_lenient_warns_on_stderr(tmp_path: Path, monkeypatch: pytest.MonkeyP
 
 def test_help_lists_check() -> None:
     assert "check" in run("--help").stdout
+
+
+def test_an_unknown_kind_is_refused_before_reading(workdir: Path) -> None:
+    result = run("check", "missing.csv", "--kind", "statement")
+    assert result.exit_code == 2
+    assert result.stderr == "error: kind: expected one of fills, financing, found 'statement'\n"
+
+
+def test_a_semicolon_header_gets_a_hint(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("semi.csv").write_text("fill_id;account;instrument\nF1;A;X\n")
+    result = run("check", "semi.csv")
+    assert result.exit_code == 2
+    assert result.stderr.endswith(
+        "the header has: fill_id;account;instrument (the header looks ';'-separated: "
+        'declare delimiter = ";" under [source] in a profile)\n'
+    )
+
+
+def test_a_file_with_no_usable_row_is_an_error_even_with_rejects(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("bad.csv").write_text(
+        "fill_id,account,instrument,side,quantity,price,time,currency\n"
+        "F1,A,X,hold,1,2,2026-11-02T10:00:00Z,USD\n"
+        "F2,A,X,buy,-1,2,2026-11-02T10:00:00Z,USD\n"
+    )
+    result = run("match", "bad.csv", "--rejects", "rejects.csv", "--out", "out")
+    assert result.exit_code == 2
+    assert result.stderr == (
+        "error: bad.csv: expected at least one usable row of fills, found none (2 rows read: 2 "
+        "rejected); `reconcile check` lists the problems\n"
+    )
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.csv"]
+
+
+def test_a_log_that_holds_no_fix_message_is_not_a_quiet_day(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("fills.log").write_text("fill_id,account\nF1,A\n")
+    result = run("check", "fills.log")
+    assert result.exit_code == 2
+    assert result.stderr == (
+        "error: fills.log: expected at least one usable row of fills, found none (2 rows read: "
+        "2 not a FIX message)\n"
+    )
+
+
+def test_a_header_only_file_is_a_day_without_trades(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    Path("fills.csv").write_text("fill_id,account,instrument,side,quantity,price,time,currency\n")
+    assert run("check", "fills.csv").exit_code == 0
+    assert run("match", "fills.csv", "--out", "out").exit_code == 0
+
+
+@pytest.mark.parametrize(
+    ("args", "shown"),
+    [
+        (["match", "fills.csv", "--rejects", "fills.csv"], "--rejects fills.csv"),
+        (["stats", "fills.csv", "--format", "csv", "--out", "fills.csv"], "--out fills.csv"),
+        (["match", "closed_lots.csv", "--out", "."], "closed_lots.csv (to be written)"),
+    ],
+    ids=["rejects", "stats out", "a table over its input"],
+)
+def test_an_output_never_replaces_an_input(
+    args: list[str], shown: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    text = (CASE / "fills.csv").read_text()
+    for name in ("fills.csv", "closed_lots.csv"):
+        Path(name).write_text(text)
+    result = run(*args)
+    assert result.exit_code == 2, result.output
+    assert result.stderr == (
+        f"error: {shown}: expected a path that is not one of this run's inputs, found the input "
+        "itself; nothing was written\n"
+    )
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["closed_lots.csv", "fills.csv"]
+    assert Path("fills.csv").read_text() == text
+    assert Path("closed_lots.csv").read_text() == text

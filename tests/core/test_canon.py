@@ -212,3 +212,12 @@ def test_financing_kind_and_amount() -> None:
         "financing.csv row 3, column kind: expected one of swap, financing, borrow, dividend, "
         "fee, other, found 'rebate'",
     ]
+
+
+def test_a_column_of_ours_is_not_suggested_as_a_misspelling_of_another() -> None:
+    frame = fills(GOOD)  # read as financing: account is not a misspelt amount, side not kind
+    with pytest.raises(MissingColumnsError) as caught:
+        canonical_financing(frame, source="fills.csv")
+    assert str(caught.value).startswith(
+        "fills.csv: missing required columns: event_id, amount, kind; the header has: fill_id"
+    )

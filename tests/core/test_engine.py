@@ -5,10 +5,12 @@ from __future__ import annotations
 from datetime import timedelta
 from decimal import Decimal
 
+import pandas as pd
 import pytest
 
 import reconcile
 from reconcile.errors import ValidationError
+from reconcile.schema import Method
 from tests.builders import concat, fills, financing
 
 D = Decimal
@@ -271,3 +273,36 @@ def test_opening_lots_under_lot_methods_must_match_their_basis() -> None:
     opening["cost_basis"] = opening["cost_basis"].astype(str).replace({"100": "99"})
     with pytest.raises(ValidationError, match="cost_basis"):
         reconcile.match(fills([("s1", "sell", 1, "10", "2026-11-03")]), opening=opening)
+
+
+@pytest.mark.parametrize("method", ["fifo", "average"])
+@pytest.mark.parametrize("blank", [True, False], ids=["blank cell", "no column"])
+def test_an_opening_lot_without_a_cost_basis_takes_quantity_times_price(
+    method: Method, blank: bool
+) -> None:
+    # The columns a position typed from a broker statement has (docs/formats.md: cost_basis is
+    # optional); both engines must take quantity x open_price x multiplier as its basis.
+    opening = pd.DataFrame(
+        {
+            "account": ["A"],
+            "instrument": ["X"],
+            "currency": ["USD"],
+            "direction": ["long"],
+            "open_fill_id": ["O1"],
+            "open_time": ["2026-10-30T10:00:00Z"],
+            "quantity": ["50"],
+            "open_price": ["9"],
+        }
+    )
+    if blank:
+        opening["cost_basis"] = [""]
+    sale = fills([("s1", "sell", 20, "10", "2026-11-03")])
+    books = [
+        reconcile.match(sale, opening=opening, method=method, engine=engine)
+        for engine in ("reference", "fast")
+    ]
+    for book in books:
+        assert book.closed_lots["gross_pnl"].tolist() == [Decimal("20.00")]  # 20 x (10 - 9)
+        assert book.open_lots["cost_basis"].tolist() == [Decimal(270)]  # 30 x 9
+    for name, table in books[0].tables().items():
+        pd.testing.assert_frame_equal(table, books[1].tables()[name], check_dtype=False, obj=name)

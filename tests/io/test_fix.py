@@ -196,7 +196,8 @@ def test_the_same_exec_id_on_another_trade_date_is_another_fill(tmp_path: Path) 
     [
         ("3", "7.25", "7.25"),  # absolute
         ("1", "0.015", "4.50"),  # per unit: 300 x 0.015
-        ("2", "0.1", "6.09"),  # percent: 0.1% of 300 x 20.30 = 6.09
+        ("2", "0.001", "6.09"),  # percent, as a fraction: 0.1% of 300 x 20.30 = 6.09
+        ("2", ".05", "304.50"),  # 5% of 6,090, written .05 as the FIX dictionary's own example
         ("7", "5", "3.04"),  # basis points: 5 bp of 6,090 = 3.045, half-even to 3.04
     ],
 )
@@ -204,8 +205,19 @@ def test_commission_types_become_amounts(
     tmp_path: Path, comm_type: str, rate: str, expected: str
 ) -> None:
     # FIX 4.4 CommType(13): 1 per unit, 2 percent, 3 absolute; 7 basis points from the later FIX
-    # code set (from memory of the FIX Latest code set). Computed amounts round half-even to the
+    # code set (from memory of the FIX Latest code set). A percentage is a fraction: the FIX data
+    # dictionary's Commission(12), since FIX 2.7, "Note if CommType (13) is percentage,
+    # Commission of 5% should be represented as .05". Computed amounts round half-even to the
     # currency's minor unit (common practice).
     fields = execution("E1", "F", qty="300", px="20.30", extra=[(12, rate), (13, comm_type)])
     fills = read_source(_write(tmp_path, [message(fields)])).frame
     assert fills["commission"].iloc[0] == D(expected)
+
+
+def test_a_negative_computed_commission_is_reported_not_made_positive(tmp_path: Path) -> None:
+    fields = execution("E1", "F", qty="300", px="20.30", extra=[(12, "-0.015"), (13, "1")])
+    with pytest.raises(
+        ValidationError,
+        match=r"row 1, column 12 \(Commission\): expected a decimal >= 0, found '-4.50'",
+    ):
+        read_source(_write(tmp_path, [message(fields)]))

@@ -638,3 +638,18 @@ def test_malformed_input_is_a_clear_error(
     for text in case.expected:
         assert text in shown, shown
     assert not (tmp_path / "out").exists()
+
+
+def test_an_inexact_excel_cell_keeps_its_value_in_the_rejects_file(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(tmp_path)
+    bad = ["f2", "A", "X", "sell", 1 / 3, 101, "2026-11-02T15:00:00Z", "USD"]
+    case = _excel("rejected double", [XHEAD, XGOOD, bad], [], "", "Fills")
+    _materialise(case, tmp_path)
+    args = ["check", "book.xlsx", "--rejects", "rejects.csv"]
+    result = CliRunner().invoke(app, args, env={"COLUMNS": "100", "NO_COLOR": "1"})
+    assert result.exit_code == 2, result.output
+    rejected = (tmp_path / "rejects.csv").read_text().splitlines()
+    assert len(rejected) == 2
+    assert f'"{1 / 3!r}"' in rejected[1]  # the cell as the reader saw it, not a blank

@@ -77,11 +77,19 @@ def test_missing_required_column(tmp_path: Path) -> None:
 
 def test_a_row_with_too_many_fields_is_named(tmp_path: Path) -> None:
     text = HEADER + ROW.format(n=1) + ROW.format(n=2).replace("USD", "USD,extra")
+    row = ROW.format(n=2).strip().replace("USD", "USD,extra")[:57] + "..."  # shown up to 60
     assert _problems(_write(tmp_path, text)) == [
-        "fills.csv row 3: expected 8 fields as in the header, found '9 fields'".replace(
-            "fills.csv", str(tmp_path / "fills.csv")
-        )
+        f"{tmp_path / 'fills.csv'} row 3: expected 8 fields as in the header, not 9, found {row!r}"
     ]
+
+
+def test_every_row_with_the_wrong_field_count_is_named(tmp_path: Path) -> None:
+    rows = [ROW.format(n=n) for n in range(1, 6)]
+    rows[1] = rows[1].replace("USD", "USD,extra")
+    rows[3] = "f4,A\n"
+    problems = _problems(_write(tmp_path, HEADER + "".join(rows)))
+    assert [p.split(":")[0].rsplit(" ", 1)[1] for p in problems] == ["3", "5"]
+    assert "expected 8 fields as in the header, not 2, found 'f4,A'" in problems[1]
 
 
 def test_bad_utf8_is_named_by_line(tmp_path: Path) -> None:

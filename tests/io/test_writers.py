@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import errno
 import json
+import os
 from decimal import Decimal
 from pathlib import Path
 
@@ -12,6 +14,7 @@ import pytest
 
 import reconcile
 from reconcile.errors import OutputError
+from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, write_tables
 from tests.builders import concat, fills
 
@@ -88,6 +91,27 @@ def test_a_failed_write_leaves_nothing_behind(tmp_path: Path) -> None:
         write_tables(tables, tmp_path, "parquet")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["positions.parquet"]
     assert (tmp_path / "positions.parquet").read_text() == "earlier results\n"
+
+
+def test_a_disk_error_is_an_output_error_naming_the_file(tmp_path: Path) -> None:
+    def whole(path: Path) -> None:
+        path.write_text("whole\n")
+
+    def full_disk(path: Path) -> None:
+        path.write_text("half")
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    def write_both() -> None:
+        with file_set(tmp_path) as files:
+            files.add("positions.csv", whole)
+            files.add("closed_lots.csv", full_disk)
+
+    with pytest.raises(OutputError) as raised:
+        write_both()
+    assert str(raised.value) == (
+        f"{tmp_path / 'closed_lots.csv'}: cannot write results: {os.strerror(errno.ENOSPC)}"
+    )
+    assert list(tmp_path.iterdir()) == []
 
 
 def test_an_unknown_format(tmp_path: Path) -> None:

@@ -192,26 +192,25 @@ def _diagnose_csv(path: Path, header: list[str], dialect: Dialect, exc: Exceptio
     body = _lines_after_header(text, dialect)
     reader = csv.reader(io.StringIO(body, newline=""), delimiter=dialect.delimiter, strict=True)
     offset = dialect.header_row - 1
+    ragged: list[Problem] = []
     try:
         for record in reader:
             if reader.line_num > 1 and len(record) != len(header) and any(record):
-                return ValidationError(
-                    str(path),
-                    [
-                        Problem(
-                            str(path),
-                            f"{len(header)} fields as in the header",
-                            f"{len(record)} fields",
-                            reader.line_num + offset,
-                            None,
-                            "wrong field count",
-                        )
-                    ],
+                ragged.append(
+                    Problem(
+                        str(path),
+                        f"{len(header)} fields as in the header, not {len(record)}",
+                        dialect.delimiter.join(record),
+                        reader.line_num + offset,
+                        None,
+                        "wrong field count",
+                    )
                 )
     except csv.Error as bad:
         return ValidationError(
             str(path),
             [
+                *ragged,
                 Problem(
                     str(path),
                     "well-formed CSV quoting",
@@ -219,7 +218,9 @@ def _diagnose_csv(path: Path, header: list[str], dialect: Dialect, exc: Exceptio
                     reader.line_num + 1 + offset,
                     None,
                     "bad quoting",
-                )
+                ),
             ],
         )
+    if ragged:
+        return ValidationError(str(path), ragged)
     return InputError(f"{path}: cannot be read as delimited text: {exc}")

@@ -181,5 +181,7 @@ class _Converter:
         return text.replace(".", self.decimal_mark) if self.decimal_mark != "." else text
 
     def _bad(self, column: str, row: int, expected: str, found: str) -> str:
+        """Record the problem; the cell keeps the text shown in it, so the rejects file has it
+        (the row is set aside before the values are checked)."""
         self.problems.append(Problem(self.source, expected, found, row, column, "inexact cell"))
-        return ""
+        return found

@@ -405,7 +405,7 @@ def _commission(message: Message, tags: dict[str, str], constant: str | None) ->
             notional = quantity * price * multiplier
             amount = {
                 "1": rate * quantity,
-                "2": rate * notional / 100,
+                "2": rate * notional,  # FIX writes a percentage as a fraction: 5% is .05
                 "6": rate * quantity * multiplier,
                 "7": rate * notional / 10000,
                 "8": rate * quantity,
@@ -413,7 +413,8 @@ def _commission(message: Message, tags: dict[str, str], constant: str | None) ->
     except (decimal.InvalidOperation, KeyError):
         return value  # the bad value is reported when the fill is validated
     places = minor_unit(constant or tags.get("15", "").upper())
-    shown = abs(amount) if places is None else round_to(abs(amount), places)
+    # A negative rate stays negative, so validation reports it as it does a negative amount.
+    shown = amount if places is None else round_to(amount, places)
     return format(shown, "f")
 
 

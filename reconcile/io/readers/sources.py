@@ -76,6 +76,8 @@ def read_source(
     fix_lenient: bool = False,
 ) -> Source:
     """Read, map and validate one input file (see the module docstring)."""
+    if kind not in _CANON:
+        raise ConfigError(f"kind: expected one of {', '.join(_CANON)}, found {kind!r}")
 
     def attempt(decimals: Sequence[str] = ()) -> Source:
         return _read_source(
@@ -253,6 +255,22 @@ def _rejects_table(source: str, problems: list[Problem], raw: _Raw) -> pd.DataFr
 
 def _without_place(problem: Problem) -> str:
     return str(dataclasses.replace(problem, source="", row=None)).lstrip().removeprefix(": ")
+
+
+def nothing_usable(summary: dict[str, Any], kind: str) -> str | None:
+    """Why a file that had rows gave no usable one (every row rejected, or none a FIX message:
+    usually the wrong file or format), or None. A file of a header only, or of FIX session
+    messages only, is a day without trades, not an error."""
+    read, rejected = summary.get("rows_read", 0), summary.get("rejected", 0)
+    not_fix = summary.get("skipped_by_kind", {}).get("not a FIX message", 0)
+    if summary.get("accepted") or not read or rejected + not_fix < read:
+        return None
+    found = [f"{rejected:,} rejected"] if rejected else []
+    found += [f"{not_fix:,} not a FIX message"] if not_fix else []
+    return (
+        f"{summary['source']}: expected at least one usable row of {kind}, found none "
+        f"({read:,} rows read: {', '.join(found)})"
+    )
 
 
 def _summary(

@@ -63,6 +63,10 @@ class ReportPart:
     facts: Sequence[Fact] = ()
     #: Whether the part found what its command would exit 1 for (breaks, fee leakage).
     found: bool = False
+    #: What produced the part, by name, for the report's run.json (its inputs, period, counts).
+    manifest: Mapping[str, Any] = field(default_factory=dict)
+    #: One line for the terminal saying what the part found.
+    summary: str = ""
 
 
 @dataclass(frozen=True)
@@ -80,6 +84,9 @@ class Report:
     page: Page
     tables: dict[str, pd.DataFrame]
     about: list[str]
+    #: The parts' run.json entries and terminal lines (see :class:`ReportPart`).
+    manifest: dict[str, Any] = field(default_factory=dict)
+    summaries: list[str] = field(default_factory=list)
 
 
 def build_report(
@@ -103,7 +110,13 @@ def build_report(
         sections.append(_unattributed(book))
     sections.append(_definitions(overall))
     page = Page(title, _subtitle(book, overall), sections, tuple(provenance))
-    return Report(page, _tables(book, statistics, parts), _about(title, overall, provenance))
+    return Report(
+        page,
+        _tables(book, statistics, parts),
+        _about(title, overall, provenance),
+        {name: entry for part in parts for name, entry in part.manifest.items()},
+        [part.summary for part in parts if part.summary],
+    )
 
 
 def _tables(

@@ -10,12 +10,40 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator
+from contextvars import ContextVar
 from pathlib import Path
 
 from reconcile.errors import OutputError
 
 Writer = Callable[[Path], None]
+
+#: The files this run reads; no file set may write over one of them (see :func:`protecting`).
+_PROTECTED: ContextVar[frozenset[Path]] = ContextVar("protected", default=frozenset())
+
+
+@contextlib.contextmanager
+def protecting(inputs: Iterable[Path]) -> Iterator[None]:
+    """While inside, writing a file that is one of ``inputs`` is an :class:`OutputError`: a slip
+    of the output name must never replace the broker file the run is reconciling."""
+    token = _PROTECTED.set(frozenset(_resolved(path) for path in inputs))
+    try:
+        yield
+    finally:
+        _PROTECTED.reset(token)
+
+
+def check_not_an_input(target: Path, option: str | None = None) -> None:
+    if _resolved(target) in _PROTECTED.get():
+        named = f"{option} {target}" if option else f"{target} (to be written)"
+        raise OutputError(
+            f"{named}: expected a path that is not one of this run's inputs, found the input "
+            "itself; nothing was written"
+        )
+
+
+def _resolved(path: Path) -> Path:
+    return Path(os.path.realpath(path))
 
 
 def _umask() -> int:
@@ -36,15 +64,22 @@ class FileSet:
         self._staged: list[tuple[Path, Path]] = []
 
     def add(self, name: str, write: Writer) -> Path:
+        """Write one file under a temporary name; a failure to write (no permission, a full disk)
+        is an :class:`OutputError` naming the file, and the set is discarded by :func:`file_set`."""
         target = self.directory / name
-        handle, temporary = tempfile.mkstemp(
-            prefix=f".{name}.", suffix=".partial", dir=self.directory
-        )
-        os.close(handle)
-        staged = Path(temporary)
-        staged.chmod(_CREATE_MODE)  # mkstemp makes files owner-only; results are ordinary files
-        self._staged.append((staged, target))
-        write(staged)
+        check_not_an_input(target)
+        try:
+            handle, temporary = tempfile.mkstemp(
+                prefix=f".{name}.", suffix=".partial", dir=self.directory
+            )
+            os.close(handle)
+            staged = Path(temporary)
+            self._staged.append((staged, target))
+            staged.chmod(_CREATE_MODE)  # mkstemp makes files owner-only; results are ordinary
+            write(staged)
+        except OSError as exc:
+            reason = exc.strerror or str(exc)
+            raise OutputError(f"{target}: cannot write results: {reason}") from exc
         return target
 
     def publish(self) -> list[Path]:
