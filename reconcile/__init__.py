@@ -27,6 +27,7 @@ if TYPE_CHECKING:
     from reconcile.core.stats import Stats, stats
     from reconcile.core.summary import currency_totals
     from reconcile.core.tieout import TieOut, tie_out
+    from reconcile.io.batches import match_in_batches
     from reconcile.io.readers import (
         check,
         load_profile,
@@ -55,6 +56,7 @@ __all__ = [
     "errors",
     "load_profile",
     "match",
+    "match_in_batches",
     "minor_unit",
     "read_fills",
     "read_financing",
@@ -95,6 +97,7 @@ _HOMES = {
     "read_rates": "reconcile.io.readers",
     "read_statement": "reconcile.io.readers",
     "tie_out": "reconcile.core.tieout",
+    "match_in_batches": "reconcile.io.batches",
 }
 
 

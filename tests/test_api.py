@@ -34,6 +34,7 @@ PUBLIC = [
     "read_rates",
     "read_statement",
     "tie_out",
+    "match_in_batches",
 ]
 
 

@@ -48,10 +48,39 @@ def match_command(
     input_format: InputFormat = None,
     rejects: RejectsFile = None,
     fix_lenient: FixLenient = False,
+    batch_rows: Annotated[
+        int | None,
+        typer.Option(
+            "--batch-rows",
+            min=1,
+            metavar="N",
+            help="Match in batches of whole accounts and instruments of about N fills each, "
+            "so memory is bounded by the batch, not the file (CSV, TSV or Parquet fills).",
+        ),
+    ] = None,
 ) -> None:
     """Match fills into closed lots, round trips, open lots and positions."""
     from reconcile.io import session
 
+    if batch_rows is not None:
+        session.match_file_in_batches(
+            fills,
+            out,
+            batch_rows=batch_rows,
+            financing=financing,
+            opening=opening,
+            method=method,
+            commission=commission,
+            rounding=rounding,
+            timezone=timezone,
+            dedupe=dedupe,
+            engine=engine,
+            fmt=fmt,
+            input_format=input_format,
+            rejects=rejects,
+            profile=profile,
+        )
+        return
     inputs = session.read_inputs(
         fills,
         financing,

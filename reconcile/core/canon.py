@@ -67,9 +67,7 @@ class _Checker:
     def text(self, column: str, *, required: bool, default: str = "") -> pa.Array:
         if column not in self.frame.columns:
             return pa.array([default] * len(self.frame), pa.string())
-        values = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
-        # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula.
-        values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
+        values = clean_text(self.raw_text(column))
         if required:
             blank = _positions(pc.equal(values, ""))
             self.add(blank, column, "a non-empty value", [""] * len(blank), "blank value")
@@ -366,6 +364,13 @@ class _Checker:
                     f"two {what}s for one instrument",
                 )
             )
+
+
+def clean_text(raw: pa.Array) -> pa.Array:
+    """Text values as canon reads them: trimmed, blank for null, a writer's apostrophe undone."""
+    values = pc.fill_null(pc.utf8_trim_whitespace(raw), "")
+    # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula.
+    return pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
 
 
 def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[int]]:

@@ -2,16 +2,20 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass, field
 from decimal import Decimal
 
 import pandas as pd
 import pyarrow as pa
 
-from reconcile.core.book import Book
+from reconcile.core.book import TABLES, Book
 from reconcile.core.frames import build_frame
-from reconcile.money import ZERO, exact_arithmetic, round_money
+from reconcile.money import ZERO, Rounding, exact_arithmetic, round_money
 
 CURRENCY_TOTALS = ("currency", "realized_gross", "commission", "financing", "realized_net")
+
+#: Exact sums per currency of what a book realized: gross, commission, financing.
+Sums = dict[str, dict[str, Decimal]]
 
 
 @exact_arithmetic
@@ -21,22 +25,64 @@ def currency_totals(book: Book) -> pd.DataFrame:
     Gross is the exact sum of every closed lot's unrounded gross, rounded once; commission and
     financing are what the positions realized under the run's commission convention.
     """
-    gross = _sums(book.closed_lots, "gross_pnl_unrounded")
-    commission = _sums(book.positions, "commission")
-    financing = _sums(book.positions, "financing")
+    return totals_frame(currency_sums(book), book.rounding)
+
+
+def currency_sums(book: Book) -> Sums:
+    return {
+        "gross": _sums(book.closed_lots, "gross_pnl_unrounded"),
+        "commission": _sums(book.positions, "commission"),
+        "financing": _sums(book.positions, "financing"),
+    }
+
+
+@exact_arithmetic
+def totals_frame(sums: Sums, rounding: Rounding) -> pd.DataFrame:
+    """:func:`currency_totals` from exact sums, each rounded once."""
+    gross, commission, financing = sums["gross"], sums["commission"], sums["financing"]
     rows = []
     for code in sorted(set(gross) | set(commission)):
         g, c, f = gross.get(code, ZERO), commission.get(code, ZERO), financing.get(code, ZERO)
         rows.append(
             {
                 "currency": code,
-                "realized_gross": round_money(g, code, book.rounding),
-                "commission": round_money(c, code, book.rounding),
-                "financing": round_money(f, code, book.rounding),
-                "realized_net": round_money(g - c + f, code, book.rounding),
+                "realized_gross": round_money(g, code, rounding),
+                "commission": round_money(c, code, rounding),
+                "financing": round_money(f, code, rounding),
+                "realized_net": round_money(g - c + f, code, rounding),
             }
         )
     return build_frame(rows, CURRENCY_TOTALS)
+
+
+@dataclass
+class BookTotals:
+    """What a run's summary says of its book (row counts, totals by currency), added up over
+    books of disjoint keys, so a run matched in batches reports what one whole run would."""
+
+    method: str
+    commission: str
+    rounding: Rounding
+    counts: dict[str, int] = field(default_factory=lambda: dict.fromkeys(TABLES, 0))
+    sums: Sums = field(default_factory=lambda: {"gross": {}, "commission": {}, "financing": {}})
+
+    @classmethod
+    def of(cls, book: Book) -> BookTotals:
+        totals = cls(book.method, book.commission, book.rounding)
+        totals.add(book)
+        return totals
+
+    @exact_arithmetic
+    def add(self, book: Book) -> None:
+        for name, frame in book.tables().items():
+            self.counts[name] += len(frame)
+        for measure, found in currency_sums(book).items():
+            into = self.sums[measure]
+            for code, value in found.items():
+                into[code] = into.get(code, ZERO) + value
+
+    def currency_totals(self) -> pd.DataFrame:
+        return totals_frame(self.sums, self.rounding)
 
 
 def _sums(frame: pd.DataFrame, column: str) -> dict[str, Decimal]:

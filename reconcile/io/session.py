@@ -21,6 +21,7 @@ from reconcile.core.book import Book
 from reconcile.core.compare import MONEY, Tolerance
 from reconcile.core.matching import match_canonical
 from reconcile.core.period import make_period, utc_text
+from reconcile.core.summary import BookTotals
 from reconcile.core.tieout import TieOut, decimal_option, tie_out
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError, InputError
 from reconcile.io import readers
@@ -156,8 +157,28 @@ def write_book(book: Book, inputs: Inputs, out: Path, fmt: str) -> list[Path]:
     return write_tables(book.tables(), out, fmt, {"run.json": manifest})
 
 
-def run_manifest(command: str, book: Book, inputs: Inputs) -> dict[str, Any]:
+def match_file_in_batches(
+    fills: Path, out: Path, *, profile: ProfileLike = None, **options: Any
+) -> None:
+    """``match --batch-rows``: stream the fills batch by batch, then the usual summary."""
+    from reconcile.io.batches import match_in_batches
+
+    if profile is not None:
+        raise ConfigError(
+            "--batch-rows: reads fills in the canonical columns; --profile is "
+            "not supported with it (map the file first, or match it whole)"
+        )
+    with terminal.progress_bar("matching batches") as progress:
+        run = match_in_batches(fills, out, progress=progress, **options)
+    show_match(run.totals, run.inputs, run.written, options.get("rejects"))
+
+
+def run_manifest(command: str, book: Book | BookTotals, inputs: Inputs) -> dict[str, Any]:
     """What produced a set of results: enough to reproduce them, nothing machine-specific."""
+    if isinstance(book, BookTotals):
+        counts = book.counts
+    else:
+        counts = {name: len(frame) for name, frame in book.tables().items()}
     return {
         "command": command,
         "reconcile_version": version("reconcile"),
@@ -167,13 +188,13 @@ def run_manifest(command: str, book: Book, inputs: Inputs) -> dict[str, Any]:
         "timezone_for_naive_times": inputs.timezone,
         "tz_database": tz_database_version(),
         "inputs": inputs.summaries(),
-        "tables": {name: len(frame) for name, frame in book.tables().items()},
+        "tables": counts,
         "caution": CAUTION,
     }
 
 
 def show_match(
-    book: Book, inputs: Inputs, written: list[Path], rejects: Path | None = None
+    book: Book | BookTotals, inputs: Inputs, written: list[Path], rejects: Path | None = None
 ) -> None:
     show_warnings(inputs)
     terminal.match_summary(terminal.console(), book, inputs.summaries(), written, rejects)

@@ -316,3 +316,14 @@ COUNTED = (
 def balance(summary: Mapping[str, Any]) -> int:
     """Rows read minus every row accounted for: always 0."""
     return int(summary["rows_read"]) - sum(int(summary.get(k, 0)) for k in COUNTED)
+
+
+def rejects_of(source: str, problems: list[Problem], raw: pd.DataFrame) -> pd.DataFrame:
+    """The rejected-rows table of ``problems`` found in ``raw`` (rows as read, with source_row),
+    for a reader that validates a file in parts (the batched match)."""
+    return _rejects_table(source, problems, _Raw(raw, raw, problems, {}))
+
+
+def rejected_by_reason(rejected: pd.DataFrame) -> dict[str, int]:
+    """How many rejected rows give each reason, most frequent first."""
+    return _reasons(rejected)

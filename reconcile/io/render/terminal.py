@@ -16,7 +16,7 @@ from rich.table import Table
 
 from reconcile.core.book import Book
 from reconcile.core.compare import MONEY
-from reconcile.core.summary import currency_totals
+from reconcile.core.summary import BookTotals
 from reconcile.core.tieout import TieOut
 from reconcile.io.render.numbers import grouped
 from reconcile.io.render.stats_view import StatsView
@@ -49,7 +49,7 @@ def progress_bar(label: str) -> Iterator[Any]:
 
 def match_summary(
     out: Console,
-    book: Book,
+    book: Book | BookTotals,
     inputs: Sequence[Mapping[str, Any]],
     written: Sequence[Path],
     rejects: Path | None = None,
@@ -65,8 +65,9 @@ def match_summary(
         if _has_more_than_accepted(read):
             out.print(f"    {equation(read)}")
     out.print(f"Relief {method}, commission {book.commission}, rounding {book.rounding}")
-    out.print(_counts(book))
-    out.print(_totals(currency_totals(book)))
+    totals = book if isinstance(book, BookTotals) else BookTotals.of(book)
+    out.print(_counts(totals.counts))
+    out.print(_totals(totals.currency_totals()))
     if written:
         folder = written[0].parent
         out.print(f"Results in {folder}{os.sep}: " + ", ".join(p.name for p in written))
@@ -75,9 +76,9 @@ def match_summary(
     out.print(CAUTION, style="dim")
 
 
-def _counts(book: Book) -> Table:
+def _counts(rows: Mapping[str, int]) -> Table:
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False)
-    counts = {name.replace("_", " "): len(frame) for name, frame in book.tables().items()}
+    counts = {name.replace("_", " "): n for name, n in rows.items()}
     for name in counts:
         table.add_column(name, justify="right")
     table.add_row(*(f"{n:,}" for n in counts.values()))
