@@ -272,7 +272,7 @@ def replay(
             runs.append(run)
         if progress is not None and (done % 200 == 0 or done == total):
             progress(done, total)
-    _raise(problems)
+    raise_replay_problems(problems)
     return EngineRun(runs, convention)
 
 
@@ -311,7 +311,8 @@ def _label(frame: pd.DataFrame | None, default: str) -> str:
     return str(summary["source"]) if isinstance(summary, dict) else default
 
 
-def _raise(problems: list[Problem]) -> None:
+def raise_replay_problems(problems: list[Problem]) -> None:
+    """Raise the problems of a replay under their one source's name, or "inputs" for several."""
     sources = {p.source for p in problems}
     raise_if_problems(sources.pop() if len(sources) == 1 else "inputs", problems)
 
@@ -464,6 +465,6 @@ def replay_key(account: str, instrument: str, events: KeyEvents, method: str) ->
     """Replay one key's rows on their own (the tie-out replays one key many times this way)."""
     problems: list[Problem] = []
     run = _run_key(account, instrument, events, RELIEF[method], problems)
-    _raise(problems)
+    raise_replay_problems(problems)
     assert run is not None, "a key that cannot be replayed reports a problem"
     return run

@@ -46,6 +46,7 @@ import pyarrow.parquet as pq
 from reconcile import schema
 from reconcile.core.book import TABLES, Book
 from reconcile.core.canon import canonical_fills, clean_text
+from reconcile.core.engine import raise_replay_problems
 from reconcile.core.matching import AUTO_FAST_ROWS, check_choice, match_canonical
 from reconcile.core.summary import BookTotals
 from reconcile.errors import (
@@ -55,7 +56,6 @@ from reconcile.errors import (
     Problem,
     ReconcileError,
     ValidationError,
-    raise_if_problems,
 )
 from reconcile.io import session
 from reconcile.io.readers import read_opening
@@ -227,6 +227,7 @@ def match_in_batches(
         checked = _validate(spill, plan, options, reader.empty, run, progress)
         others.raise_error()  # a bad fills file is named first, as a whole run names it
         inputs = others.inputs(checked, options)
+        session.check_usable(inputs)
         totals, staged = run.complete(checked, progress)
         written = _publish(directory, staged, session.run_manifest("match", totals, inputs))
     except BaseException:
@@ -769,7 +770,7 @@ class _Matcher:
             self.add(batch, self._fills(batch, checked))
             if progress is not None:
                 progress(batch + 1, self.plan.batches)
-        raise_if_problems("inputs", self.problems)
+        raise_replay_problems(self.problems)
         return self.totals, self.sinks.finish()
 
     def _stale(self, batch: int, scales: dict[str, int]) -> bool:

@@ -95,11 +95,7 @@ def read_inputs(
         events_read = options(financing, "financing")
         sources.append(events_read)
         events = events_read.frame
-    for source, kind in zip(sources, ("fills", "financing"), strict=False):
-        reason = nothing_usable(source.summary, kind)
-        if reason is not None:
-            raise InputError(f"{reason}; `reconcile check` lists the problems")
-    return Inputs(
+    inputs = Inputs(
         fills=read.frame,
         financing=events,
         opening=None if opening is None else _opening(opening, timezone),
@@ -107,6 +103,17 @@ def read_inputs(
         rejected=_all_rejects(sources) if keep_rejects else None,
         warnings=tuple(w for s in sources for w in s.warnings),
     )
+    check_usable(inputs)
+    return inputs
+
+
+def check_usable(inputs: Inputs) -> None:
+    """A file that had rows but gave not one usable row is the wrong file or format, not a quiet
+    day (see :func:`~reconcile.io.readers.sources.nothing_usable`)."""
+    for summary in inputs.summaries():
+        reason = nothing_usable(summary, summary["kind"])
+        if reason is not None:
+            raise InputError(f"{reason}; `reconcile check` lists the problems")
 
 
 def _all_rejects(sources: list[Source]) -> pd.DataFrame:

@@ -353,3 +353,13 @@ def test_events_that_cannot_apply_are_listed_from_every_batch(tmp_path: Path) ->
     opening_path = write_csv(opening, tmp_path / "opening.csv")
     whole, batched = errors_of(tmp_path, two_keys(), batch_rows=1, opening=opening_path)
     assert batched == whole
+
+
+def test_a_file_with_no_usable_row_fails_as_the_whole_run_fails(tmp_path: Path) -> None:
+    frame = two_keys()
+    frame["side"] = "hold"
+    rejects = tmp_path / "rejects.csv"
+    whole, batched = errors_of(tmp_path, frame, batch_rows=1, rejects=rejects)
+    assert batched == whole
+    assert "expected at least one usable row of fills, found none" in batched
+    assert not rejects.exists()
