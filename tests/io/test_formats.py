@@ -16,6 +16,7 @@ import xlsxwriter
 from typer.testing import CliRunner
 
 from reconcile.cli import app
+from reconcile.io.readers.sources import read_source
 from tests.fixmsg import execution, message
 
 FILLS = Path(__file__).parents[1] / "golden" / "flip-and-yen" / "fills.csv"
@@ -195,3 +196,19 @@ def test_every_format_gives_byte_identical_positions(
     (tmp_path / "fills.csv").write_bytes(FILLS.read_bytes())
     expected = _positions(tmp_path, ["fills.csv"], "csv-out")
     assert _positions(tmp_path, WRITERS[fmt](tmp_path), f"{fmt}-out") == expected
+
+
+def test_a_side_column_beside_signed_quantities_must_agree_with_the_sign(tmp_path: Path) -> None:
+    # A common export fault: signed quantities and a side column that contradicts them. The sign
+    # decides (the profile says so), and a side that disagrees is a problem, not silently ignored.
+    (tmp_path / "p.toml").write_text('[signs]\nquantity = "signed"\n')
+    (tmp_path / "fills.csv").write_text(
+        "fill_id,account,instrument,side,quantity,price,time,currency\n"
+        "F1,A,X,sell,5,2,2026-11-02T10:00:00Z,USD\n"
+        "F2,A,X,SELL,-1,2,2026-11-02T10:00:02Z,USD\n"
+        "F3,A,X,,-1,2,2026-11-02T10:00:03Z,USD\n"
+    )
+    read = read_source(tmp_path / "fills.csv", profile=tmp_path / "p.toml", keep_rejects=True)
+    assert read.frame["fill_id"].tolist() == ["F2", "F3"]
+    assert read.frame["side"].tolist() == ["sell", "sell"]
+    assert [(p.row, p.column, p.found) for p in read.problems] == [(2, "side", "sell")]

@@ -224,10 +224,29 @@ def _apply_signs(data: dict[str, pd.Series], profile: Profile, report: _Reporter
     if signs.quantity == "signed" and "quantity" in data:
         quantity = data["quantity"]
         negative = quantity.str.startswith("-")
-        data["side"] = pd.Series(np.where(negative, "sell", "buy"), dtype="str")
+        derived = pd.Series(np.where(negative, "sell", "buy"), dtype="str")
+        if "side" in data:  # a side column the file has as well: it must agree with the sign
+            _check_sides(data["side"], derived, report)
+        data["side"] = derived
         data["quantity"] = quantity.str.removeprefix("-").str.removeprefix("+")
     if signs.commission == "negative" and "commission" in data:
         data["commission"] = data["commission"].map(_negate).astype("str")
+
+
+def _check_sides(given: pd.Series, derived: pd.Series, report: _Reporter) -> None:
+    named = given.str.strip().str.lower().map(_SIDE_NAMES)
+    bad = (given.ne("") & named.ne(derived)).to_numpy()
+    report.add(
+        bad,
+        "side",
+        "the side the signed quantity gives, buy for a positive, sell for a negative "
+        "(profile signs.quantity = 'signed')",
+        given,
+        "side contradicts sign",
+    )
+
+
+_SIDE_NAMES = {"b": "buy", "buy": "buy", "s": "sell", "sell": "sell"}
 
 
 def _negate(text: str) -> str:
