@@ -119,7 +119,7 @@ def test_an_event_booked_after_midnight_belongs_to_the_previous_cut_off() -> Non
     assert audit.financing_days["status"].tolist() == ["ok"]
 
 
-def test_marks_price_the_position_and_an_account_mark_comes_first() -> None:
+def test_the_latest_mark_prices_the_position_and_the_accounts_own_wins_a_tie() -> None:
     marks = pd.DataFrame(
         {
             "time": ["2026-11-03T21:00:00Z", "2026-11-03T21:00:00Z", "2026-11-04T21:00:00Z"],
@@ -138,8 +138,9 @@ def test_marks_price_the_position_and_an_account_mark_comes_first() -> None:
     monday = _day(audit.financing_days, "2026-11-02")
     assert (monday["price"], monday["price_source"]) == (D(50), "last fill")
     audit = audit_fees(LONG_WEEK, schedule(RULE), _events(), marks=marks)
-    assert _day(audit.financing_days, "2026-11-03")["expected"] == D("-5.50")
-    assert _day(audit.financing_days, "2026-11-04")["expected"] == D("-5.50")
+    assert _day(audit.financing_days, "2026-11-03")["expected"] == D("-5.50")  # same instant
+    # A newer general mark beats an older account mark: a stale price is not a better one.
+    assert _day(audit.financing_days, "2026-11-04")["expected"] == D("-6.20")
 
 
 BENCHMARK = """

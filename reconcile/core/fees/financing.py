@@ -3,8 +3,8 @@
 Positions come from the fills: the open quantity at a day's cut-off is the signed sum of the fills
 before that instant, which is the engine's position (a fill at the cut-off itself counts from the
 next day, as the engine applies financing before a fill at the same instant). Notional needs a
-price: the latest mark at or before the cut-off (one for the account, else one for every
-account), or else the price of the last fill at or before it.
+price: the latest mark at or before the cut-off (the account's own, or one for every account;
+the account's own at an equal time), or else the price of the last fill at or before it.
 
 A booked event belongs to the financing day of the latest cut-off at or before its time, under
 the first rule that covers its account, instrument and kind.
@@ -60,10 +60,15 @@ class _Book:
         return self.positions[count - 1] if count else ZERO
 
     def price(self, cutoff: int) -> tuple[Decimal | None, str]:
+        """The latest mark at or before the cut-off (the account's own at an equal time: its
+        series comes first), else the last fill's price."""
+        latest: tuple[int, Decimal] | None = None
         for times, prices in self.marks:
             index = bisect.bisect_right(times, cutoff) - 1
-            if index >= 0:
-                return prices[index], "mark"
+            if index >= 0 and (latest is None or times[index] > latest[0]):
+                latest = times[index], prices[index]
+        if latest is not None:
+            return latest[1], "mark"
         index = bisect.bisect_right(self.times, cutoff) - 1
         return (self.prices[index], "last fill") if index >= 0 else (None, "")
 
