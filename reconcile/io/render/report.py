@@ -17,6 +17,7 @@ import pandas as pd
 
 from reconcile.core.book import Book
 from reconcile.core.stats import NOT_RECOVERED, Stats
+from reconcile.core.summary import currency_totals
 from reconcile.io.render import charts
 from reconcile.io.render.html import Fact, Figure, Page, Section, Table
 from reconcile.io.render.numbers import cell_text, grouped
@@ -163,9 +164,41 @@ def _overview(book: Book, overall: Stats, parts: Sequence[ReportPart]) -> Sectio
     tables = []
     if len(summary):
         tables.append(_compact(summary, ("currency",), "Per currency", note=OVERVIEW_NOTE))
+        tables.append(_bridge(book, overall))
     else:
         paragraphs.append("No round trip has closed yet: there is nothing to measure.")
     return Section("Overview", "overview", paragraphs, facts, tables=tables)
+
+
+def _bridge(book: Book, overall: Stats) -> Table:
+    """From the statistics' net P&L to the book's realized net, so the two figures a reader meets
+    are reconciled on the page: the difference is what no finished trade holds."""
+    measured = "round trips" if overall.over == "round-trips" else "closed lots"
+    realized = {row["currency"]: row["realized_net"] for row in _records(currency_totals(book))}
+    rows: dict[str, list[str]] = {
+        "currency": [],
+        f"net P&L of the {measured}": [],
+        "realized elsewhere": [],
+        "realized net (positions)": [],
+    }
+    for row in _records(overall.summary):
+        code = row["currency"]
+        total = realized.get(code, Decimal(0))
+        for name, value in zip(
+            list(rows)[1:], (row["net_pnl"], total - row["net_pnl"], total), strict=True
+        ):
+            rows[name].append(grouped(value, code))
+        rows["currency"].append(code)
+    note = (
+        "Realized elsewhere: partial closes of positions still open, financing no open lot "
+        "took, and (with commission at-fill) commissions of lots still open."
+    )
+    return Table(
+        "From the statistics to realized P&L",
+        pd.DataFrame(rows, dtype="str"),
+        note=note,
+        numeric=list(rows)[1:],
+    )
 
 
 def _cumulative(overall: Stats) -> Section:
