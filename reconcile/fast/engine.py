@@ -13,7 +13,6 @@ import pyarrow as pa
 
 from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
-from reconcile.core.frames import frame_from_arrow
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
 from reconcile.fast.prepare import Prepared, prepare
@@ -63,10 +62,9 @@ def fast_book(
     if reference is not None:
         tables = _merge(tables, reference, prepared, fallback, offsets)
     del builder, out, derived, prepared  # the kernel's arrays are not needed past this point
-    frames = {}
-    for name in list(tables):  # one table at a time, so each Arrow copy is freed as it goes
-        frames[name] = frame_from_arrow(tables.pop(name).drop_columns([KEY]))
-    return Book(**frames, method=method, commission=convention, rounding=rounding)
+    # The book holds the Arrow tables: a caller that asks for frames gets them converted then.
+    arrow = {name: table.drop_columns([KEY]) for name, table in tables.items()}
+    return Book(**arrow, method=method, commission=convention, rounding=rounding)
 
 
 def run_kernel(

@@ -79,9 +79,20 @@ def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndar
 
 def checked_mul(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Elementwise a x b with the rows that would leave the int64 range flagged (and zeroed)."""
+    a, b = np.asarray(a, np.int64), np.asarray(b, np.int64)
+    if _largest(a) * _largest(b) <= LIMIT:  # exact Python integers: no row can overflow
+        product: np.ndarray = a * b
+        return product, np.zeros(product.shape, bool)
     magnitude = np.maximum(np.abs(a), 1)
     bad = np.abs(b) > LIMIT // magnitude
     return np.where(bad, 0, a * np.where(bad, 0, b)), bad
+
+
+def _largest(values: np.ndarray) -> int:
+    """The largest magnitude in ``values`` as a Python integer (0 when empty); |-2**63| included."""
+    if not values.size:
+        return 0
+    return max(abs(int(values.max())), abs(int(values.min())))
 
 
 def digits(values: np.ndarray) -> np.ndarray:
@@ -158,6 +169,10 @@ def ints_of(values: pa.Array | pa.ChunkedArray) -> np.ndarray:
 
 def checked_add(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Elementwise a + b with the rows that would leave the int64 range flagged (and zeroed)."""
+    a, b = np.asarray(a, np.int64), np.asarray(b, np.int64)
+    if _largest(a) + _largest(b) <= LIMIT:
+        total: np.ndarray = a + b
+        return total, np.zeros(total.shape, bool)
     bad = ((b > 0) & (a > LIMIT - b)) | ((b < 0) & (a < -LIMIT - b))
     return np.where(bad, 0, a + np.where(bad, 0, b)), bad
 

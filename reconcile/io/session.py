@@ -149,7 +149,7 @@ def match_inputs(inputs: Inputs, **options: Any) -> Book:
 
 def write_book(book: Book, inputs: Inputs, out: Path, fmt: str) -> list[Path]:
     manifest = run_manifest("match", book, inputs)
-    return write_tables(book.tables(), out, fmt, {"run.json": manifest})
+    return write_tables(book.stored_tables(), out, fmt, {"run.json": manifest})
 
 
 def run_manifest(command: str, book: Book, inputs: Inputs) -> dict[str, Any]:
@@ -163,7 +163,7 @@ def run_manifest(command: str, book: Book, inputs: Inputs) -> dict[str, Any]:
         "timezone_for_naive_times": inputs.timezone,
         "tz_database": tz_database_version(),
         "inputs": inputs.summaries(),
-        "tables": {name: len(frame) for name, frame in book.tables().items()},
+        "tables": {name: book.row_count(name) for name in book.stored_tables()},
         "caution": CAUTION,
     }
 

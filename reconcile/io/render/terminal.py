@@ -77,7 +77,7 @@ def match_summary(
 
 def _counts(book: Book) -> Table:
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False)
-    counts = {name.replace("_", " "): len(frame) for name, frame in book.tables().items()}
+    counts = {name.replace("_", " "): book.row_count(name) for name in book.stored_tables()}
     for name in counts:
         table.add_column(name, justify="right")
     table.add_row(*(f"{n:,}" for n in counts.values()))

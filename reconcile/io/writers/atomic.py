@@ -10,7 +10,8 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from reconcile.errors import OutputError
@@ -46,6 +47,15 @@ class FileSet:
         self._staged.append((staged, target))
         write(staged)
         return target
+
+    def add_all(self, writers: Sequence[tuple[str, Writer]], threads: int = 1) -> list[Path]:
+        """:meth:`add` for several files, written by up to ``threads`` threads at once (for
+        writers that release the GIL, as pyarrow's do); the first failure is raised."""
+        if threads <= 1 or len(writers) <= 1:
+            return [self.add(name, write) for name, write in writers]
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            futures = [pool.submit(self.add, name, write) for name, write in writers]
+            return [future.result() for future in futures]
 
     def publish(self) -> list[Path]:
         for staged, target in self._staged:
