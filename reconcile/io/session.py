@@ -18,24 +18,23 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
-from reconcile.core.compare import MONEY, Tolerance
 from reconcile.core.matching import match_canonical
-from reconcile.core.period import make_period, utc_text
-from reconcile.core.tieout import TieOut, decimal_option, tie_out
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError
 from reconcile.io import readers
-from reconcile.io.config import TieOutConfig, read_config
 from reconcile.io.readers import read_marks, read_opening
 from reconcile.io.readers.sources import ProfileLike, Source, read_source
 from reconcile.io.render import terminal
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, text_table, write_tables
-from reconcile.io.writers.tieout import write_tieout
 from reconcile.money import ZERO
 
-if TYPE_CHECKING:  # the fee audit's modules load with its first use (pydantic is slow to import)
+if TYPE_CHECKING:  # the fee audit's and tie-out's modules load with their first use (pydantic,
+    # xlsxwriter and the tie-out's page are slow to import, and match needs none of them)
+    from reconcile.core.compare import Tolerance
     from reconcile.core.fees.audit import FeeAudit
     from reconcile.core.fees.rules import Schedule
+    from reconcile.core.tieout import TieOut
+    from reconcile.io.config import TieOutConfig
 from reconcile.notice import CAUTION
 from reconcile.timezones import tz_database_version
 
@@ -401,6 +400,8 @@ def read_tieout_inputs(
 
     ``source`` options (profile, input_format, fix_lenient) go to :func:`read_inputs`.
     """
+    from reconcile.io.config import read_config
+
     return TieOutInputs(
         inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe, **source),
         statement=readers.read_statement(statement),
@@ -421,6 +422,9 @@ def run_tieout(
     **options: Any,
 ) -> TieOut:
     """Tie out with options from the command line over those of the config file."""
+    from reconcile.core.period import make_period
+    from reconcile.core.tieout import decimal_option, tie_out
+
     zone_name = read.inputs.timezone or "UTC"
     span = make_period(period, first=first, last=last, timezone=zone_name, cutoff=cutoff)
     config = read.config
@@ -452,6 +456,8 @@ def measure_tolerances(
     config: TieOutConfig, absolute: Decimal | None, relative: Decimal | None
 ) -> dict[str, Tolerance]:
     """Per-measure tolerances; a money measure's unset field takes the general money one."""
+    from reconcile.core.compare import MONEY, Tolerance
+
     general = Tolerance(absolute or ZERO, relative or ZERO)
     rules = {}
     for measure, given in config.by_measure.items():
@@ -465,6 +471,8 @@ def measure_tolerances(
 
 def tieout_manifest(result: TieOut, read: TieOutInputs, command: str) -> dict[str, Any]:
     """What produced a tie-out: enough to reproduce it, nothing machine-specific."""
+    from reconcile.core.period import utc_text
+
     span = result.period
     return {
         "command": command,
@@ -526,6 +534,8 @@ def tolerance_text(result: TieOut) -> str:
 def write_tieout_results(
     result: TieOut, read: TieOutInputs, out: Path, formats: list[str]
 ) -> list[Path]:
+    from reconcile.io.writers.tieout import write_tieout
+
     manifest = tieout_manifest(result, read, "tie-out")
     return write_tieout(result, out, formats, manifest)
 
