@@ -105,9 +105,21 @@ class Book:
         """The tables as held (DataFrames or Arrow tables), for writers that take either."""
         return dict(self._tables)
 
+    def arrow_columns(self, name: str, *columns: str) -> list[pa.Array]:
+        """Columns of one table as Arrow arrays, without making a DataFrame of an Arrow table."""
+        table = self._tables[name]
+        if isinstance(table, pa.Table):
+            return [table.column(c).combine_chunks() for c in columns]
+        return [_arrow_array(table[c]) for c in columns]
+
     def row_count(self, name: str) -> int:
         table = self._tables[name]
         return table.num_rows if isinstance(table, pa.Table) else len(table)
+
+
+def _arrow_array(series: pd.Series) -> pa.Array:
+    values = pa.array(series.array)
+    return values.combine_chunks() if isinstance(values, pa.ChunkedArray) else values
 
 
 def build_book(run: EngineRun, method: str, rounding: Rounding) -> Book:

@@ -66,10 +66,11 @@ class _Checker:
 
     def text(self, column: str, *, required: bool, default: str = "") -> pa.Array:
         if column not in self.frame.columns:
-            return pa.array([default] * len(self.frame), pa.string())
+            return pa.repeat(pa.scalar(default, pa.string()), len(self.frame))
         values = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
         # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula.
-        values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
+        if pc.any(pc.starts_with(values, "'")).as_py():
+            values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
         if required:
             blank = _positions(pc.equal(values, ""))
             self.add(blank, column, "a non-empty value", [""] * len(blank), "blank value")

@@ -21,9 +21,12 @@ def currency_totals(book: Book) -> pd.DataFrame:
     Gross is the exact sum of every closed lot's unrounded gross, rounded once; commission and
     financing are what the positions realized under the run's commission convention.
     """
-    gross = _sums(book.closed_lots, "gross_pnl_unrounded")
-    commission = _sums(book.positions, "commission")
-    financing = _sums(book.positions, "financing")
+    gross = _sums(*book.arrow_columns("closed_lots", "currency", "gross_pnl_unrounded"))
+    currencies, commission_column, financing_column = book.arrow_columns(
+        "positions", "currency", "commission", "financing"
+    )
+    commission = _sums(currencies, commission_column)
+    financing = _sums(currencies, financing_column)
     rows = []
     for code in sorted(set(gross) | set(commission)):
         g, c, f = gross.get(code, ZERO), commission.get(code, ZERO), financing.get(code, ZERO)
@@ -39,13 +42,16 @@ def currency_totals(book: Book) -> pd.DataFrame:
     return build_frame(rows, CURRENCY_TOTALS)
 
 
-def _sums(frame: pd.DataFrame, column: str) -> dict[str, Decimal]:
-    """Exact sums per currency, over whole columns: 76 digits leave no room for a wrap."""
-    if frame.empty:
+def _sums(currencies: pa.Array, values: pa.Array) -> dict[str, Decimal]:
+    """Exact sums per currency, over whole columns, typed so that no sum can wrap: n values of
+    p digits sum to at most p + len(str(n)) digits, in decimal128 when that is 38 or fewer, else
+    in 76-digit decimal256."""
+    if not len(values):
         return {}
-    values = pa.array(frame[column].array)
-    wide = pa.decimal256(76, values.type.scale)
-    table = pa.table({"currency": pa.array(frame["currency"].array), "value": values.cast(wide)})
+    scale = values.type.scale
+    narrow = pa.types.is_decimal128(values.type) and values.type.precision + len(str(len(values)))
+    wide = pa.decimal128(38, scale) if narrow and narrow <= 38 else pa.decimal256(76, scale)
+    table = pa.table({"currency": currencies, "value": values.cast(wide)})
     sums = table.group_by("currency", use_threads=False).aggregate([("value", "sum")])
     codes, totals = sums.column("currency").to_pylist(), sums.column("value_sum").to_pylist()
     return {str(c): ZERO + t for c, t in zip(codes, totals, strict=True)}

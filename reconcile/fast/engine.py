@@ -35,6 +35,7 @@ def fast_book(
     """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``."""
     prepared = prepare(fills, financing, opening, method)
     out = run_kernel(prepared, method, convention, compiled=compiled)
+    prepared.release_kernel_inputs()
     average = method == "average"
     derived, bad = finish(out, prepared, rounding == "half-up", average)
     if bad.any():
@@ -52,13 +53,7 @@ def fast_book(
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
     builder = TableBuilder(prepared, out, derived, offsets)
     good = np.flatnonzero(prepared.key["status"] == kernel.OK)
-    tables = {
-        "closed_lots": builder.closed_lots(average),
-        "round_trips": builder.round_trips(),
-        "open_lots": builder.open_lots(average),
-        "positions": builder.positions(good),
-        "unattributed": builder.unattributed(),
-    }
+    tables = builder.build_all(good, average)
     if reference is not None:
         tables = _merge(tables, reference, prepared, fallback, offsets)
     del builder, out, derived, prepared  # the kernel's arrays are not needed past this point

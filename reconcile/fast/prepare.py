@@ -71,6 +71,11 @@ class Prepared:
     def key_count(self) -> int:
         return len(self.key["minor"])
 
+    def release_kernel_inputs(self) -> None:
+        """Drop the sorted integer columns once the kernel has run: only the tables' sources and
+        the per-key arrays are needed after it (tens of megabytes per million rows)."""
+        self.fills, self.financing, self.opening = {}, {}, {}
+
 
 def arrow_columns(frame: pd.DataFrame | None, names: tuple[str, ...]) -> dict[str, pa.Array]:
     if frame is None or frame.empty:
