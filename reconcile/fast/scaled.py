@@ -8,9 +8,13 @@ the narrowest precision its values need (as :func:`reconcile.core.frames.tight_d
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
+
+from reconcile.fast._jit import jit, numba_available
 
 #: Values are kept below 2**62 on the way in, so no kernel sum of two inputs can reach 2**63.
 INPUT_LIMIT = 2**62
@@ -181,7 +185,45 @@ def round_to_places(
     values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
 ) -> tuple[np.ndarray, np.ndarray]:
     """Values at ``scale`` rounded to ``places`` (half-even, or half away from zero), as
-    integers at ``places``: money.round_to, elementwise."""
+    integers at ``places``: money.round_to, elementwise. One compiled pass when numba is there;
+    otherwise whole-column numpy (:func:`round_columns`), which gives the same integers."""
+    if numba_available():
+        values = np.ascontiguousarray(values, np.int64)
+        shift = np.ascontiguousarray(np.broadcast_to(scale - places, values.shape), np.int64)
+        out, bad = np.empty_like(values), np.zeros(len(values), bool)
+        _round_rows(values, shift, half_up, out, bad)
+        return out, bad
+    return round_columns(values, scale, places, half_up)
+
+
+@jit
+def _round_rows(values: Any, shift: Any, half_up: Any, out: Any, bad: Any) -> None:
+    for i in range(len(values)):
+        step, value = shift[i], values[i]
+        if step > 18 or step < -18:
+            bad[i] = True
+            out[i] = 0
+        elif step > 0:
+            den = POW10[step]
+            q, r = value // den, value % den
+            if r > den - r or (r == den - r and ((q >= 0) if half_up else (q % 2 == 1))):
+                q += 1
+            out[i] = q
+        elif step < 0:
+            factor = POW10[-step]
+            if abs(value) > LIMIT // factor:
+                bad[i] = True
+                out[i] = 0
+            else:
+                out[i] = value * factor
+        else:
+            out[i] = value
+
+
+def round_columns(
+    values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`round_to_places` over whole columns with numpy."""
     shift = np.asarray(scale - places, np.int64)
     up_factor = POW10[np.clip(-shift, 0, 18)]
     raised, bad = checked_mul(values, up_factor)
@@ -202,7 +244,60 @@ def ratio(
     places: int,
 ) -> tuple[np.ndarray, np.ndarray]:
     """``(num / 10**num_scale) / (den / 10**den_scale)`` rounded half-even to ``places``, as
-    integers at ``places`` (money.divide), by long division so no wide product is formed."""
+    integers at ``places`` (money.divide), by long division so no wide product is formed.
+    Compiled when numba is there, else whole-column numpy (:func:`ratio_columns`)."""
+    if numba_available():
+        num = np.ascontiguousarray(num, np.int64)
+        shift = np.ascontiguousarray(
+            np.broadcast_to(den_scale + places - num_scale, num.shape), np.int64
+        )
+        den = np.ascontiguousarray(np.broadcast_to(den, num.shape), np.int64)
+        out, bad = np.empty_like(num), np.zeros(len(num), bool)
+        _ratio_rows(num, den, shift, out, bad)
+        return out, bad
+    return ratio_columns(num, num_scale, den, den_scale, places)
+
+
+@jit
+def _ratio_rows(num: Any, den: Any, shift: Any, out: Any, bad: Any) -> None:
+    for i in range(len(num)):
+        step, d = shift[i], den[i]
+        wrong = step < -18
+        if step < 0 and not wrong:
+            factor = POW10[-step]
+            if d != 0 and abs(d) > LIMIT // factor:
+                wrong, d = True, 0
+            else:
+                d = d * factor
+        if d <= 0 or d > LIMIT // 10:
+            wrong = True
+        if wrong:
+            d = 1
+        a = abs(num[i])
+        whole, rest = a // d, a % d
+        for _ in range(step):
+            rest = rest * 10
+            digit = rest // d
+            if whole > (LIMIT - digit) // 10:
+                wrong = True
+                whole = 0
+            else:
+                whole = whole * 10 + digit
+            rest = rest - digit * d
+        if rest > d - rest or (rest == d - rest and whole % 2 == 1):
+            whole += 1
+        out[i] = -whole if num[i] < 0 else whole
+        bad[i] = wrong
+
+
+def ratio_columns(
+    num: np.ndarray,
+    num_scale: np.ndarray,
+    den: np.ndarray,
+    den_scale: np.ndarray,
+    places: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`ratio` over whole columns with numpy."""
     num = np.asarray(num, np.int64)
     shift = np.asarray(den_scale + places - num_scale, np.int64) + np.zeros(len(num), np.int64)
     den, bad = checked_mul(np.asarray(den, np.int64), POW10[np.clip(-shift, 0, 18)])
