@@ -86,6 +86,10 @@ class _Checker:
         fold: Callable[[pa.Array], pa.Array] = pc.utf8_lower,
     ) -> pa.Array:
         values = self.text(column, required=False)
+        same = pa.array([k for k, v in mapping.items() if k == v], pa.string())
+        canonical = pc.filter(same, pc.equal(fold(same), same))  # values that map to themselves
+        if len(values) and pc.all(pc.is_in(values, value_set=canonical)).as_py():
+            return values  # already in canonical form (``buy``, ``sell``): one pass, no copy
         folded = fold(values)
         keys = pa.array(list(mapping), pa.string())
         known = pc.is_in(folded, value_set=keys)

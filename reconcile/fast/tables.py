@@ -69,7 +69,7 @@ class TableBuilder:
         opening = prepared.sources["opening"].columns
         self.fill_ids = _plain(fills["fill_id"]) if fills else pa.array([], pa.string())
         opened = _plain(opening["open_fill_id"]) if opening else pa.array([], pa.string())
-        self.lot_ids = pa.concat_arrays([self.fill_ids, opened])
+        self.lot_ids = pa.concat_arrays([self.fill_ids, opened]) if len(opened) else self.fill_ids
         self.fill_prices = fills["price"] if fills else pa.array([], pa.decimal128(1, 0))
 
     def build_all(self, good: np.ndarray, average: bool) -> dict[str, pa.Table]:
