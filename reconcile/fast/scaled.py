@@ -64,7 +64,36 @@ def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndar
     """Values at ``scale`` moved to per-row ``target`` scales: (integers, did not fit).
 
     Moving down must be exact (the target is at least each value's significant places).
+    One compiled pass when numba is there, else whole-column numpy.
     """
+    if numba_available():
+        values = np.ascontiguousarray(values, np.int64)
+        shift = np.ascontiguousarray(np.broadcast_to(target - scale, values.shape), np.int64)
+        out, bad = np.empty_like(values), np.zeros(len(values), bool)
+        _rescale_rows(values, shift, out, bad)
+        return out, bad
+    return rescale_columns(values, scale, target)
+
+
+@jit
+def _rescale_rows(values: Any, shift: Any, out: Any, bad: Any) -> None:
+    for i in range(len(values)):
+        step, value = shift[i], values[i]
+        if step < 0:
+            out[i] = value // POW10[min(-step, 18)]
+        elif step == 0:
+            out[i] = value
+        elif (step > 18 and value != 0) or abs(value) > LIMIT // POW10[min(step, 18)]:
+            bad[i] = True
+            out[i] = 0
+        else:
+            out[i] = value * POW10[min(step, 18)]
+
+
+def rescale_columns(
+    values: np.ndarray, scale: int, target: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`rescale` over whole columns with numpy."""
     shift = target.astype(np.int64) - scale
     out = values.copy()
     down = shift < 0

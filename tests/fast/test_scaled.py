@@ -98,3 +98,28 @@ def test_ratio_agrees_with_exact_division(rows: list[tuple[int, int, int, int]])
         ((bad, out),) = outs
         if not bad:
             assert out == int(expected)
+
+
+@given(
+    rows=st.lists(st.tuples(st.one_of(INTS, SMALL), st.integers(-20, 20)), min_size=1),
+    scale=st.integers(0, 20),
+)
+def test_rescaling_agrees_with_exact_integers(rows: list[tuple[int, int]], scale: int) -> None:
+    values = np.array([r[0] for r in rows], np.int64)
+    shift = np.array([r[1] for r in rows], np.int64)
+    target = scale + shift
+    loop_out, loop_bad = np.empty_like(values), np.zeros(len(values), bool)
+    scaled._rescale_rows.py_func(values, shift, loop_out, loop_bad)  # type: ignore[attr-defined]
+    results = [
+        scaled.rescale(values, scale, target),
+        scaled.rescale_columns(values, scale, target),
+        (loop_out, loop_bad),
+    ]
+    for i, (value, step) in enumerate(rows):
+        # Moving down floors (callers only move down where no digit is lost); up is exact.
+        expected = value // 10 ** min(-step, 18) if step < 0 else value * 10**step
+        fits = abs(expected) <= LIMIT
+        for out, bad in results:
+            assert bool(bad[i]) == (not fits)
+            if fits:
+                assert int(out[i]) == expected
