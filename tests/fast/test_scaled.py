@@ -16,7 +16,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from reconcile.fast import scaled
-from reconcile.money import divide, round_to
+from reconcile.money import Rounding, divide, round_to
 
 LIMIT = 2**63 - 1
 INTS = st.integers(-LIMIT, LIMIT)
@@ -58,7 +58,7 @@ def test_rounding_to_places_agrees_with_the_decimal_module(
         scaled.round_columns(values, scales, places, half_up),
         (loop_out, loop_bad),
     ]
-    rule = "half-up" if half_up else "half-even"
+    rule: Rounding = "half-up" if half_up else "half-even"
     for i, (value, scale, place) in enumerate(rows):
         expected = round_to(Decimal(value).scaleb(-scale), place, rule).scaleb(place)
         fits = abs(expected) <= LIMIT and abs(scale - place) <= 18
