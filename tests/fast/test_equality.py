@@ -183,12 +183,18 @@ def test_written_parquet_tables_hold_the_same_values(
 ) -> None:
     history, events = data
     read: dict[str, dict[str, list[dict[str, object]]]] = {}
+    kinds: dict[str, dict[str, list[str]]] = {}
     for engine in ("reference", "fast"):
         book = reconcile.match(history, events, method=method, engine=engine)  # type: ignore[arg-type]
         out = tmp_path_factory.mktemp(engine)
         write_tables(book.stored_tables(), out, "parquet")
         read[engine] = {p.name: pq.read_table(p).to_pylist() for p in sorted(out.iterdir())}
+        kinds[engine] = {
+            p.name: [str(f.type).split("(")[0] for f in pq.read_schema(p)]
+            for p in sorted(out.iterdir())
+        }
     assert read["fast"] == read["reference"]
+    assert kinds["fast"] == kinds["reference"]  # the same column types (text as large strings)
 
 
 def test_inputs_only_the_reference_reports_raise_its_errors() -> None:

@@ -260,7 +260,7 @@ _CSV_OPTIONS = pa_csv.WriteOptions(quoting_style="needed")
 def _parquet(frame: AnyTable) -> Any:
     def write(path: Path) -> None:
         if isinstance(frame, pa.Table):
-            table = frame.replace_schema_metadata(_pandas_metadata(frame))
+            table = _like_from_pandas(frame)
         else:
             table = pa.Table.from_pandas(frame, preserve_index=False)
         pq.write_table(table, path, **parquet_options(table))
@@ -285,6 +285,16 @@ STATISTICS_COLUMNS = frozenset(
 
 def _large_text(field: pa.Field) -> bool:
     return bool(pa.types.is_large_string(field.type))
+
+
+def _like_from_pandas(table: pa.Table) -> pa.Table:
+    """The Arrow table as ``Table.from_pandas`` of its DataFrame would give it (text as large
+    strings, pandas metadata), so a Parquet file reads back the same whichever engine wrote it."""
+    fields = [
+        pa.field(f.name, pa.large_string()) if pa.types.is_string(f.type) else f
+        for f in table.schema
+    ]
+    return table.cast(pa.schema(fields)).replace_schema_metadata(_pandas_metadata(table))
 
 
 def _pandas_metadata(table: pa.Table) -> dict[bytes, bytes] | None:
