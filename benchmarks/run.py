@@ -1,6 +1,6 @@
 """Time the fast path against a bare CSV parse, the reference engine and a row-by-row loop.
 
-    python benchmarks/run.py [N ...]        (default: 1e6 1e7)
+    python benchmarks/run.py [--quick] [N ...]        (default: 1e6 1e7)
 
 For each N it generates (once, into benchmarks/data/) seeded synthetic fills and prints, in one run:
 (a) a bare pyarrow CSV parse of the file with default typing; (b) ``reconcile match`` end to end
@@ -8,7 +8,8 @@ For each N it generates (once, into benchmarks/data/) seeded synthetic fills and
 parse plus writing the same output tables); the kernel alone per relief method; (c) the reference
 engine on a subset, and a row-by-row pandas loop on a subset, both extrapolated to N. For files of
 at most 1e6 fills it also runs the reference engine on the whole file and says whether every table
-it writes is byte-identical to the fast path's.
+it writes is byte-identical to the fast path's. ``--quick`` leaves out (c) and that check (the
+slow parts), for comparing changes to the fast path; a full run prints everything.
 
 Figures, not tests: speed targets live here, never in the test suite. On a shared machine, run it
 when the machine is quiet; times are wall-clock, best of the repeats where there are repeats.
@@ -43,7 +44,8 @@ RECONCILE = Path(sys.executable).with_name("reconcile")
 
 
 def main() -> None:
-    counts = [int(float(a)) for a in sys.argv[1:]] or [1_000_000, 10_000_000]
+    quick = "--quick" in sys.argv
+    counts = [int(float(a)) for a in sys.argv[1:] if a != "--quick"] or [1_000_000, 10_000_000]
     load = os.getloadavg()[0]
     print(
         f"reconcile benchmark on {os.cpu_count()} cores (load average {load:.1f} at the start); "
@@ -52,10 +54,10 @@ def main() -> None:
     _warm_up()
     for count in counts:
         print(f"\n== {count:,} fills ==")
-        measure(count)
+        measure(count, quick)
 
 
-def measure(count: int) -> None:
+def measure(count: int, quick: bool = False) -> None:
     path = DATA / f"fills-{count}.csv"
     if not path.exists():
         started = time.perf_counter()
@@ -75,6 +77,8 @@ def measure(count: int) -> None:
     print(f"    I/O floor (parse + write outputs):   {floor:7.2f} s  (write {write:.2f} s)")
     print(f"    ratio (b)/(a): {wall / parse:.2f}x   (b)/floor: {wall / floor:.2f}x")
     _kernel_alone(path)
+    if quick:
+        return
     reference = _reference_rate(path)
     baseline = _row_by_row_rate(path)
     print(

@@ -4,19 +4,23 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from decimal import Decimal
-from typing import Any
+from typing import Any, TypeAlias
 
 import pandas as pd
+import pyarrow as pa
 
 from reconcile import schema
 from reconcile.core.engine import AVERAGE_PLACES, EngineRun, KeyRun, Piece, Trip
-from reconcile.core.frames import build_frame
+from reconcile.core.frames import build_frame, frame_from_arrow
 from reconcile.money import EXACT, ZERO, Rounding, divide, round_money
 
 TABLES = ("closed_lots", "round_trips", "open_lots", "positions", "unattributed")
 
 
-@dataclass(frozen=True)
+#: A table of a book: a DataFrame, or the Arrow table it is built from.
+Table: TypeAlias = pd.DataFrame | pa.Table
+
+
 class Book:
     """Closed lots, round trips, open lots, positions and unattributed financing of one run.
 
@@ -24,20 +28,98 @@ class Book:
     decimals rounded to the currency's minor unit; totals (positions, round trips) are summed
     exactly and rounded once, so they can differ from the sum of rounded lines by rounding.
     ``gross_pnl_unrounded`` keeps each closed lot's exact gross for sums over any period.
+
+    A table may be given as an Arrow table (the fast path builds them so): it becomes a DataFrame
+    only when first asked for, so a run that only writes its tables never converts them at all
+    (:meth:`stored_tables` hands out what is held). A book does not change once built.
     """
 
-    closed_lots: pd.DataFrame
-    round_trips: pd.DataFrame
-    open_lots: pd.DataFrame
-    positions: pd.DataFrame
-    unattributed: pd.DataFrame
+    __slots__ = ("_tables", "commission", "method", "rounding")
+
+    _tables: dict[str, Table]
     method: str
     commission: str
-    rounding: Rounding = "half-even"
+    rounding: Rounding
+
+    def __init__(
+        self,
+        closed_lots: Table,
+        round_trips: Table,
+        open_lots: Table,
+        positions: Table,
+        unattributed: Table,
+        method: str,
+        commission: str,
+        rounding: Rounding = "half-even",
+    ) -> None:
+        held = (closed_lots, round_trips, open_lots, positions, unattributed)
+        setter = object.__setattr__
+        setter(self, "_tables", dict(zip(TABLES, held, strict=True)))
+        setter(self, "method", method)
+        setter(self, "commission", commission)
+        setter(self, "rounding", rounding)
+
+    def __setattr__(self, name: str, value: Any) -> None:
+        raise AttributeError(f"a Book does not change once built (cannot set {name})")
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        held = tuple(self._tables[name] for name in TABLES)
+        return (Book, (*held, self.method, self.commission, self.rounding))
+
+    def __repr__(self) -> str:
+        counts = ", ".join(f"{name}={self.row_count(name)}" for name in TABLES)
+        return f"Book({counts}, method={self.method!r}, commission={self.commission!r})"
+
+    def _frame(self, name: str) -> pd.DataFrame:
+        table = self._tables[name]
+        if isinstance(table, pa.Table):
+            table = frame_from_arrow(table)
+            self._tables[name] = table
+        return table
+
+    @property
+    def closed_lots(self) -> pd.DataFrame:
+        return self._frame("closed_lots")
+
+    @property
+    def round_trips(self) -> pd.DataFrame:
+        return self._frame("round_trips")
+
+    @property
+    def open_lots(self) -> pd.DataFrame:
+        return self._frame("open_lots")
+
+    @property
+    def positions(self) -> pd.DataFrame:
+        return self._frame("positions")
+
+    @property
+    def unattributed(self) -> pd.DataFrame:
+        return self._frame("unattributed")
 
     def tables(self) -> dict[str, pd.DataFrame]:
         """The tables by name, in the order writers emit them."""
-        return {name: getattr(self, name) for name in TABLES}
+        return {name: self._frame(name) for name in TABLES}
+
+    def stored_tables(self) -> dict[str, Table]:
+        """The tables as held (DataFrames or Arrow tables), for writers that take either."""
+        return dict(self._tables)
+
+    def arrow_columns(self, name: str, *columns: str) -> list[pa.Array]:
+        """Columns of one table as Arrow arrays, without making a DataFrame of an Arrow table."""
+        table = self._tables[name]
+        if isinstance(table, pa.Table):
+            return [table.column(c).combine_chunks() for c in columns]
+        return [_arrow_array(table[c]) for c in columns]
+
+    def row_count(self, name: str) -> int:
+        table = self._tables[name]
+        return table.num_rows if isinstance(table, pa.Table) else len(table)
+
+
+def _arrow_array(series: pd.Series) -> pa.Array:
+    values = pa.array(series.array)
+    return values.combine_chunks() if isinstance(values, pa.ChunkedArray) else values
 
 
 def build_book(run: EngineRun, method: str, rounding: Rounding) -> Book:

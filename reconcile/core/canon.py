@@ -66,7 +66,7 @@ class _Checker:
 
     def text(self, column: str, *, required: bool, default: str = "") -> pa.Array:
         if column not in self.frame.columns:
-            return pa.array([default] * len(self.frame), pa.string())
+            return pa.repeat(pa.scalar(default, pa.string()), len(self.frame))
         values = clean_text(self.raw_text(column))
         if required:
             blank = _positions(pc.equal(values, ""))
@@ -83,6 +83,10 @@ class _Checker:
         fold: Callable[[pa.Array], pa.Array] = pc.utf8_lower,
     ) -> pa.Array:
         values = self.text(column, required=False)
+        same = pa.array([k for k, v in mapping.items() if k == v], pa.string())
+        canonical = pc.filter(same, pc.equal(fold(same), same))  # values that map to themselves
+        if len(values) and pc.all(pc.is_in(values, value_set=canonical)).as_py():
+            return values  # already in canonical form (``buy``, ``sell``): one pass, no copy
         folded = fold(values)
         keys = pa.array(list(mapping), pa.string())
         known = pc.is_in(folded, value_set=keys)
@@ -369,8 +373,11 @@ class _Checker:
 def clean_text(raw: pa.Array) -> pa.Array:
     """Text values as canon reads them: trimmed, blank for null, a writer's apostrophe undone."""
     values = pc.fill_null(pc.utf8_trim_whitespace(raw), "")
-    # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula.
-    return pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
+    # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula (the regex
+    # only where some value starts with one: most columns have none).
+    if pc.any(pc.starts_with(values, "'")).as_py():
+        values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
+    return values
 
 
 def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[int]]:

@@ -29,10 +29,14 @@ def currency_totals(book: Book) -> pd.DataFrame:
 
 
 def currency_sums(book: Book) -> Sums:
+    gross = _sums(*book.arrow_columns("closed_lots", "currency", "gross_pnl_unrounded"))
+    currencies, commission_column, financing_column = book.arrow_columns(
+        "positions", "currency", "commission", "financing"
+    )
     return {
-        "gross": _sums(book.closed_lots, "gross_pnl_unrounded"),
-        "commission": _sums(book.positions, "commission"),
-        "financing": _sums(book.positions, "financing"),
+        "gross": gross,
+        "commission": _sums(currencies, commission_column),
+        "financing": _sums(currencies, financing_column),
     }
 
 
@@ -74,8 +78,8 @@ class BookTotals:
 
     @exact_arithmetic
     def add(self, book: Book) -> None:
-        for name, frame in book.tables().items():
-            self.counts[name] += len(frame)
+        for name in book.stored_tables():
+            self.counts[name] += book.row_count(name)
         for measure, found in currency_sums(book).items():
             into = self.sums[measure]
             for code, value in found.items():
@@ -85,13 +89,16 @@ class BookTotals:
         return totals_frame(self.sums, self.rounding)
 
 
-def _sums(frame: pd.DataFrame, column: str) -> dict[str, Decimal]:
-    """Exact sums per currency, over whole columns: 76 digits leave no room for a wrap."""
-    if frame.empty:
+def _sums(currencies: pa.Array, values: pa.Array) -> dict[str, Decimal]:
+    """Exact sums per currency, over whole columns, typed so that no sum can wrap: n values of
+    p digits sum to at most p + len(str(n)) digits, in decimal128 when that is 38 or fewer, else
+    in 76-digit decimal256."""
+    if not len(values):
         return {}
-    values = pa.array(frame[column].array)
-    wide = pa.decimal256(76, values.type.scale)
-    table = pa.table({"currency": pa.array(frame["currency"].array), "value": values.cast(wide)})
+    scale = values.type.scale
+    narrow = pa.types.is_decimal128(values.type) and values.type.precision + len(str(len(values)))
+    wide = pa.decimal128(38, scale) if narrow and narrow <= 38 else pa.decimal256(76, scale)
+    table = pa.table({"currency": currencies, "value": values.cast(wide)})
     sums = table.group_by("currency", use_threads=False).aggregate([("value", "sum")])
     codes, totals = sums.column("currency").to_pylist(), sums.column("value_sum").to_pylist()
     return {str(c): ZERO + t for c, t in zip(codes, totals, strict=True)}

@@ -13,7 +13,6 @@ import pyarrow as pa
 
 from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
-from reconcile.core.frames import frame_from_arrow
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
 from reconcile.fast.prepare import Prepared, prepare
@@ -36,6 +35,7 @@ def fast_book(
     """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``."""
     prepared = prepare(fills, financing, opening, method)
     out = run_kernel(prepared, method, convention, compiled=compiled)
+    prepared.release_kernel_inputs()
     average = method == "average"
     derived, bad = finish(out, prepared, rounding == "half-up", average)
     if bad.any():
@@ -53,20 +53,13 @@ def fast_book(
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
     builder = TableBuilder(prepared, out, derived, offsets)
     good = np.flatnonzero(prepared.key["status"] == kernel.OK)
-    tables = {
-        "closed_lots": builder.closed_lots(average),
-        "round_trips": builder.round_trips(),
-        "open_lots": builder.open_lots(average),
-        "positions": builder.positions(good),
-        "unattributed": builder.unattributed(),
-    }
+    tables = builder.build_all(good, average)
     if reference is not None:
         tables = _merge(tables, reference, prepared, fallback, offsets)
     del builder, out, derived, prepared  # the kernel's arrays are not needed past this point
-    frames = {}
-    for name in list(tables):  # one table at a time, so each Arrow copy is freed as it goes
-        frames[name] = frame_from_arrow(tables.pop(name).drop_columns([KEY]))
-    return Book(**frames, method=method, commission=convention, rounding=rounding)
+    # The book holds the Arrow tables: a caller that asks for frames gets them converted then.
+    arrow = {name: table.drop_columns([KEY]) for name, table in tables.items()}
+    return Book(**arrow, method=method, commission=convention, rounding=rounding)
 
 
 def run_kernel(

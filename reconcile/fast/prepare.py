@@ -71,6 +71,11 @@ class Prepared:
     def key_count(self) -> int:
         return len(self.key["minor"])
 
+    def release_kernel_inputs(self) -> None:
+        """Drop the sorted integer columns once the kernel has run: only the tables' sources and
+        the per-key arrays are needed after it (tens of megabytes per million rows)."""
+        self.fills, self.financing, self.opening = {}, {}, {}
+
 
 def arrow_columns(frame: pd.DataFrame | None, names: tuple[str, ...]) -> dict[str, pa.Array]:
     if frame is None or frame.empty:
@@ -131,8 +136,7 @@ def _code_keys(sources: dict[str, Source]) -> tuple[pa.Array, pa.Array]:
     ranks = []
     names = []
     for column in ("account", "instrument"):
-        chunks = [s.columns[column].cast(pa.large_string()) for s in present]
-        encoded = pc.dictionary_encode(pa.chunked_array(chunks))
+        encoded = pc.dictionary_encode(_text_chunks([s.columns[column] for s in present]))
         dictionary = (
             encoded.chunk(0).dictionary if encoded.num_chunks else pa.array([], pa.string())
         )
@@ -156,6 +160,13 @@ def _code_keys(sources: dict[str, Source]) -> tuple[pa.Array, pa.Array]:
     accounts = names[0].take(pa.array(used // width)).cast(pa.string())
     instruments = names[1].take(pa.array(used % width)).cast(pa.string())
     return accounts, instruments
+
+
+def _text_chunks(arrays: list[pa.Array]) -> pa.ChunkedArray:
+    """One chunked text column of several inputs; cast (a copy) only when their types differ."""
+    if len({a.type for a in arrays}) > 1:
+        arrays = [a.cast(pa.large_string()) for a in arrays]
+    return pa.chunked_array(arrays)
 
 
 def _fill_order(source: Source, key_count: int) -> np.ndarray:
@@ -186,8 +197,7 @@ def _event_order(source: Source, time: str) -> np.ndarray:
 
 def _key_currencies(sources: dict[str, Source], key_count: int) -> tuple[pa.Array, np.ndarray]:
     present = [s for s in sources.values() if s.columns]
-    chunks = [s.columns["currency"].cast(pa.large_string()) for s in present]
-    encoded = pc.dictionary_encode(pa.chunked_array(chunks))
+    encoded = pc.dictionary_encode(_text_chunks([s.columns["currency"] for s in present]))
     codes = np.concatenate(
         [np.asarray(c.indices.to_numpy(zero_copy_only=False), np.int64) for c in encoded.chunks]
     )

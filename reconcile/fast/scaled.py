@@ -8,9 +8,13 @@ the narrowest precision its values need (as :func:`reconcile.core.frames.tight_d
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
+
+from reconcile.fast._jit import jit, numba_available
 
 #: Values are kept below 2**62 on the way in, so no kernel sum of two inputs can reach 2**63.
 INPUT_LIMIT = 2**62
@@ -60,7 +64,36 @@ def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndar
     """Values at ``scale`` moved to per-row ``target`` scales: (integers, did not fit).
 
     Moving down must be exact (the target is at least each value's significant places).
+    One compiled pass when numba is there, else whole-column numpy.
     """
+    if numba_available():
+        values = np.ascontiguousarray(values, np.int64)
+        shift = np.ascontiguousarray(np.broadcast_to(target - scale, values.shape), np.int64)
+        out, bad = np.empty_like(values), np.zeros(len(values), bool)
+        _rescale_rows(values, shift, out, bad)
+        return out, bad
+    return rescale_columns(values, scale, target)
+
+
+@jit
+def _rescale_rows(values: Any, shift: Any, out: Any, bad: Any) -> None:
+    for i in range(len(values)):
+        step, value = shift[i], values[i]
+        if step < 0:
+            out[i] = value // POW10[min(-step, 18)]
+        elif step == 0:
+            out[i] = value
+        elif (step > 18 and value != 0) or abs(value) > LIMIT // POW10[min(step, 18)]:
+            bad[i] = True
+            out[i] = 0
+        else:
+            out[i] = value * POW10[min(step, 18)]
+
+
+def rescale_columns(
+    values: np.ndarray, scale: int, target: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`rescale` over whole columns with numpy."""
     shift = target.astype(np.int64) - scale
     out = values.copy()
     down = shift < 0
@@ -79,9 +112,20 @@ def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndar
 
 def checked_mul(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Elementwise a x b with the rows that would leave the int64 range flagged (and zeroed)."""
+    a, b = np.asarray(a, np.int64), np.asarray(b, np.int64)
+    if _largest(a) * _largest(b) <= LIMIT:  # exact Python integers: no row can overflow
+        product: np.ndarray = a * b
+        return product, np.zeros(product.shape, bool)
     magnitude = np.maximum(np.abs(a), 1)
     bad = np.abs(b) > LIMIT // magnitude
     return np.where(bad, 0, a * np.where(bad, 0, b)), bad
+
+
+def _largest(values: np.ndarray) -> int:
+    """The largest magnitude in ``values`` as a Python integer (0 when empty); |-2**63| included."""
+    if not values.size:
+        return 0
+    return max(abs(int(values.max())), abs(int(values.min())))
 
 
 def digits(values: np.ndarray) -> np.ndarray:
@@ -158,6 +202,10 @@ def ints_of(values: pa.Array | pa.ChunkedArray) -> np.ndarray:
 
 def checked_add(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Elementwise a + b with the rows that would leave the int64 range flagged (and zeroed)."""
+    a, b = np.asarray(a, np.int64), np.asarray(b, np.int64)
+    if _largest(a) + _largest(b) <= LIMIT:
+        total: np.ndarray = a + b
+        return total, np.zeros(total.shape, bool)
     bad = ((b > 0) & (a > LIMIT - b)) | ((b < 0) & (a < -LIMIT - b))
     return np.where(bad, 0, a + np.where(bad, 0, b)), bad
 
@@ -166,7 +214,45 @@ def round_to_places(
     values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
 ) -> tuple[np.ndarray, np.ndarray]:
     """Values at ``scale`` rounded to ``places`` (half-even, or half away from zero), as
-    integers at ``places``: money.round_to, elementwise."""
+    integers at ``places``: money.round_to, elementwise. One compiled pass when numba is there;
+    otherwise whole-column numpy (:func:`round_columns`), which gives the same integers."""
+    if numba_available():
+        values = np.ascontiguousarray(values, np.int64)
+        shift = np.ascontiguousarray(np.broadcast_to(scale - places, values.shape), np.int64)
+        out, bad = np.empty_like(values), np.zeros(len(values), bool)
+        _round_rows(values, shift, half_up, out, bad)
+        return out, bad
+    return round_columns(values, scale, places, half_up)
+
+
+@jit
+def _round_rows(values: Any, shift: Any, half_up: Any, out: Any, bad: Any) -> None:
+    for i in range(len(values)):
+        step, value = shift[i], values[i]
+        if step > 18 or step < -18:
+            bad[i] = True
+            out[i] = 0
+        elif step > 0:
+            den = POW10[step]
+            q, r = value // den, value % den
+            if r > den - r or (r == den - r and ((q >= 0) if half_up else (q % 2 == 1))):
+                q += 1
+            out[i] = q
+        elif step < 0:
+            factor = POW10[-step]
+            if abs(value) > LIMIT // factor:
+                bad[i] = True
+                out[i] = 0
+            else:
+                out[i] = value * factor
+        else:
+            out[i] = value
+
+
+def round_columns(
+    values: np.ndarray, scale: np.ndarray, places: np.ndarray, half_up: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`round_to_places` over whole columns with numpy."""
     shift = np.asarray(scale - places, np.int64)
     up_factor = POW10[np.clip(-shift, 0, 18)]
     raised, bad = checked_mul(values, up_factor)
@@ -187,7 +273,60 @@ def ratio(
     places: int,
 ) -> tuple[np.ndarray, np.ndarray]:
     """``(num / 10**num_scale) / (den / 10**den_scale)`` rounded half-even to ``places``, as
-    integers at ``places`` (money.divide), by long division so no wide product is formed."""
+    integers at ``places`` (money.divide), by long division so no wide product is formed.
+    Compiled when numba is there, else whole-column numpy (:func:`ratio_columns`)."""
+    if numba_available():
+        num = np.ascontiguousarray(num, np.int64)
+        shift = np.ascontiguousarray(
+            np.broadcast_to(den_scale + places - num_scale, num.shape), np.int64
+        )
+        den = np.ascontiguousarray(np.broadcast_to(den, num.shape), np.int64)
+        out, bad = np.empty_like(num), np.zeros(len(num), bool)
+        _ratio_rows(num, den, shift, out, bad)
+        return out, bad
+    return ratio_columns(num, num_scale, den, den_scale, places)
+
+
+@jit
+def _ratio_rows(num: Any, den: Any, shift: Any, out: Any, bad: Any) -> None:
+    for i in range(len(num)):
+        step, d = shift[i], den[i]
+        wrong = step < -18
+        if step < 0 and not wrong:
+            factor = POW10[-step]
+            if d != 0 and abs(d) > LIMIT // factor:
+                wrong, d = True, 0
+            else:
+                d = d * factor
+        if d <= 0 or d > LIMIT // 10:
+            wrong = True
+        if wrong:
+            d = 1
+        a = abs(num[i])
+        whole, rest = a // d, a % d
+        for _ in range(step):
+            rest = rest * 10
+            digit = rest // d
+            if whole > (LIMIT - digit) // 10:
+                wrong = True
+                whole = 0
+            else:
+                whole = whole * 10 + digit
+            rest = rest - digit * d
+        if rest > d - rest or (rest == d - rest and whole % 2 == 1):
+            whole += 1
+        out[i] = -whole if num[i] < 0 else whole
+        bad[i] = wrong
+
+
+def ratio_columns(
+    num: np.ndarray,
+    num_scale: np.ndarray,
+    den: np.ndarray,
+    den_scale: np.ndarray,
+    places: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`ratio` over whole columns with numpy."""
     num = np.asarray(num, np.int64)
     shift = np.asarray(den_scale + places - num_scale, np.int64) + np.zeros(len(num), np.int64)
     den, bad = checked_mul(np.asarray(den, np.int64), POW10[np.clip(-shift, 0, 18)])

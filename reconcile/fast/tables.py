@@ -21,6 +21,7 @@ KEY = "_key"
 TIME = pa.timestamp("ns", tz="UTC")
 DIRECTIONS = pa.array(["short", "long"], pa.string())
 UNATTRIBUTED_REASON = "no open position at the event time"
+_EMPTY = np.zeros((0, 0), np.int64)
 
 
 @dataclass
@@ -68,8 +69,23 @@ class TableBuilder:
         opening = prepared.sources["opening"].columns
         self.fill_ids = _plain(fills["fill_id"]) if fills else pa.array([], pa.string())
         opened = _plain(opening["open_fill_id"]) if opening else pa.array([], pa.string())
-        self.lot_ids = pa.concat_arrays([self.fill_ids, opened])
+        self.lot_ids = pa.concat_arrays([self.fill_ids, opened]) if len(opened) else self.fill_ids
         self.fill_prices = fills["price"] if fills else pa.array([], pa.decimal128(1, 0))
+
+    def build_all(self, good: np.ndarray, average: bool) -> dict[str, pa.Table]:
+        """Every table, dropping the kernel rows and derived columns of each once it is built,
+        so the largest (closed lots) does not stay in memory beside its integer rows."""
+        out, derived = self.out, self.d
+        tables = {"closed_lots": self.closed_lots(average)}
+        out.pieces, out.piece_times = _EMPTY, _EMPTY
+        for name in ("piece_gross", "piece_net", "piece_open_price"):
+            derived.pop(name)
+        tables["round_trips"] = self.round_trips()
+        out.trips, out.trip_times = _EMPTY, _EMPTY
+        tables["open_lots"] = self.open_lots(average)
+        tables["positions"] = self.positions(good)
+        tables["unattributed"] = self.unattributed()
+        return tables
 
     def _key_columns(self, keys: np.ndarray) -> dict[str, pa.Array]:
         index = pa.array(keys)

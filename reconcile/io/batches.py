@@ -71,7 +71,13 @@ from reconcile.io.readers.sources import Source, read_source, rejected_by_reason
 from reconcile.io.readers.tabular import check_exists, detect_format
 from reconcile.io.session import Inputs
 from reconcile.io.writers.atomic import file_set
-from reconcile.io.writers.tables import TABLE_FORMATS, add_tables, csv_bytes, json_records
+from reconcile.io.writers.tables import (
+    TABLE_FORMATS,
+    add_tables,
+    csv_bytes,
+    json_records,
+    parquet_options,
+)
 from reconcile.money import ROUNDING_MODES, Rounding
 
 #: Input formats read in batches; the others are read whole (without ``--batch-rows``).
@@ -918,7 +924,8 @@ class _Sinks:
         target = pa.Table.from_pandas(empty, preserve_index=False).schema
         pending: list[pa.Table] = []
         held = total = 0
-        with pq.ParquetWriter(self.paths[name], target) as writer:
+        options = parquet_options(target.empty_table())  # as a whole run writes the table
+        with pq.ParquetWriter(self.paths[name], target, **options) as writer:
             for _, path in sorted(self.parts[name].items()):
                 table = ipc.open_file(path).read_all().cast(target)
                 path.unlink()

@@ -18,25 +18,24 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
-from reconcile.core.compare import MONEY, Tolerance
 from reconcile.core.matching import match_canonical
-from reconcile.core.period import make_period, utc_text
 from reconcile.core.summary import BookTotals
-from reconcile.core.tieout import TieOut, decimal_option, tie_out
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError, InputError
 from reconcile.io import readers
-from reconcile.io.config import TieOutConfig, read_config
 from reconcile.io.readers import read_marks, read_opening
 from reconcile.io.readers.sources import ProfileLike, Source, nothing_usable, read_source
 from reconcile.io.render import terminal
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, text_table, write_tables
-from reconcile.io.writers.tieout import write_tieout
 from reconcile.money import ZERO
 
-if TYPE_CHECKING:  # the fee audit's modules load with its first use (pydantic is slow to import)
+if TYPE_CHECKING:  # the fee audit's and tie-out's modules load with their first use (pydantic,
+    # xlsxwriter and the tie-out's page are slow to import, and match needs none of them)
+    from reconcile.core.compare import Tolerance
     from reconcile.core.fees.audit import FeeAudit
     from reconcile.core.fees.rules import Schedule
+    from reconcile.core.tieout import TieOut
+    from reconcile.io.config import TieOutConfig
 from reconcile.notice import CAUTION
 from reconcile.timezones import tz_database_version
 
@@ -161,7 +160,7 @@ def match_inputs(inputs: Inputs, **options: Any) -> Book:
 
 def write_book(book: Book, inputs: Inputs, out: Path, fmt: str) -> list[Path]:
     manifest = run_manifest("match", book, inputs)
-    return write_tables(book.tables(), out, fmt, {"run.json": manifest})
+    return write_tables(book.stored_tables(), out, fmt, {"run.json": manifest})
 
 
 def match_file_in_batches(
@@ -185,7 +184,7 @@ def run_manifest(command: str, book: Book | BookTotals, inputs: Inputs) -> dict[
     if isinstance(book, BookTotals):
         counts = book.counts
     else:
-        counts = {name: len(frame) for name, frame in book.tables().items()}
+        counts = {name: book.row_count(name) for name in book.stored_tables()}
     return {
         "command": command,
         "reconcile_version": version("reconcile"),
@@ -436,6 +435,8 @@ def read_tieout_inputs(
 
     ``source`` options (profile, input_format, fix_lenient) go to :func:`read_inputs`.
     """
+    from reconcile.io.config import read_config
+
     return TieOutInputs(
         inputs=read_inputs(fills, financing, opening, timezone=timezone, dedupe=dedupe, **source),
         statement=readers.read_statement(statement),
@@ -456,6 +457,9 @@ def run_tieout(
     **options: Any,
 ) -> TieOut:
     """Tie out with options from the command line over those of the config file."""
+    from reconcile.core.period import make_period
+    from reconcile.core.tieout import decimal_option, tie_out
+
     zone_name = read.inputs.timezone or "UTC"
     span = make_period(period, first=first, last=last, timezone=zone_name, cutoff=cutoff)
     config = read.config
@@ -487,6 +491,8 @@ def measure_tolerances(
     config: TieOutConfig, absolute: Decimal | None, relative: Decimal | None
 ) -> dict[str, Tolerance]:
     """Per-measure tolerances; a money measure's unset field takes the general money one."""
+    from reconcile.core.compare import MONEY, Tolerance
+
     general = Tolerance(absolute or ZERO, relative or ZERO)
     rules = {}
     for measure, given in config.by_measure.items():
@@ -500,6 +506,8 @@ def measure_tolerances(
 
 def tieout_manifest(result: TieOut, read: TieOutInputs, command: str) -> dict[str, Any]:
     """What produced a tie-out: enough to reproduce it, nothing machine-specific."""
+    from reconcile.core.period import utc_text
+
     span = result.period
     return {
         "command": command,
@@ -561,6 +569,8 @@ def tolerance_text(result: TieOut) -> str:
 def write_tieout_results(
     result: TieOut, read: TieOutInputs, out: Path, formats: list[str]
 ) -> list[Path]:
+    from reconcile.io.writers.tieout import write_tieout
+
     manifest = tieout_manifest(result, read, "tie-out")
     return write_tieout(result, out, formats, manifest)
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pandas as pd
+import pyarrow.parquet as pq
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
@@ -165,11 +166,35 @@ def test_written_csv_files_are_byte_identical(
         for engine in ("reference", "fast")
     }
     written: dict[str, dict[str, bytes]] = {}
-    for engine, book in books.items():
-        out = tmp_path_factory.mktemp(engine)
-        write_tables(book.tables(), out, "csv")
+    # The fast book as held (Arrow tables, written without pandas) and as DataFrames.
+    kinds = {"reference": books["reference"].tables(), "fast": books["fast"].stored_tables()}
+    kinds["fast frames"] = books["fast"].tables()
+    for engine, tables in kinds.items():
+        out = tmp_path_factory.mktemp(engine.replace(" ", "-"))
+        write_tables(tables, out, "csv")
         written[engine] = {p.name: p.read_bytes() for p in sorted(Path(out).iterdir())}
     assert written["fast"] == written["reference"]
+    assert written["fast frames"] == written["reference"]
+
+
+@given(data=inputs(), method=METHODS)
+def test_written_parquet_tables_hold_the_same_values(
+    tmp_path_factory: pytest.TempPathFactory, data: tuple[pd.DataFrame, pd.DataFrame], method: str
+) -> None:
+    history, events = data
+    read: dict[str, dict[str, list[dict[str, object]]]] = {}
+    kinds: dict[str, dict[str, list[str]]] = {}
+    for engine in ("reference", "fast"):
+        book = reconcile.match(history, events, method=method, engine=engine)  # type: ignore[arg-type]
+        out = tmp_path_factory.mktemp(engine)
+        write_tables(book.stored_tables(), out, "parquet")
+        read[engine] = {p.name: pq.read_table(p).to_pylist() for p in sorted(out.iterdir())}
+        kinds[engine] = {
+            p.name: [str(f.type).split("(")[0] for f in pq.read_schema(p)]
+            for p in sorted(out.iterdir())
+        }
+    assert read["fast"] == read["reference"]
+    assert kinds["fast"] == kinds["reference"]  # the same column types (text as large strings)
 
 
 def test_inputs_only_the_reference_reports_raise_its_errors() -> None:

@@ -6,7 +6,7 @@ import os
 from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 from rich import box
@@ -15,12 +15,13 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 from rich.table import Table
 
 from reconcile.core.book import Book
-from reconcile.core.compare import MONEY
 from reconcile.core.summary import BookTotals
-from reconcile.core.tieout import TieOut
 from reconcile.io.render.numbers import grouped
-from reconcile.io.render.stats_view import StatsView
 from reconcile.notice import CAUTION
+
+if TYPE_CHECKING:  # the tie-out and statistics load with the commands that use them
+    from reconcile.core.tieout import TieOut
+    from reconcile.io.render.stats_view import StatsView
 
 
 def console(stderr: bool = False) -> Console:
@@ -259,6 +260,8 @@ def _status_counts(counts: Mapping[str, int]) -> Table:
 
 
 def _breaks_table(breaks: pd.DataFrame) -> Table:
+    from reconcile.core.compare import MONEY
+
     table = Table(
         title="Breaks", title_justify="left", box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False
     )

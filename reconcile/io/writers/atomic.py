@@ -8,10 +8,11 @@ Windows). A failure before that point removes the temporaries and leaves earlier
 from __future__ import annotations
 
 import contextlib
+import contextvars
 import os
 import tempfile
-from collections.abc import Callable, Iterable, Iterator
-from contextvars import ContextVar
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from reconcile.errors import OutputError
@@ -19,7 +20,9 @@ from reconcile.errors import OutputError
 Writer = Callable[[Path], None]
 
 #: The files this run reads; no file set may write over one of them (see :func:`protecting`).
-_PROTECTED: ContextVar[frozenset[Path]] = ContextVar("protected", default=frozenset())
+_PROTECTED: contextvars.ContextVar[frozenset[Path]] = contextvars.ContextVar(
+    "protected", default=frozenset()
+)
 
 
 @contextlib.contextmanager
@@ -81,6 +84,19 @@ class FileSet:
             reason = exc.strerror or str(exc)
             raise OutputError(f"{target}: cannot write results: {reason}") from exc
         return target
+
+    def add_all(self, writers: Sequence[tuple[str, Writer]], threads: int = 1) -> list[Path]:
+        """:meth:`add` for several files, written by up to ``threads`` threads at once (for
+        writers that release the GIL, as pyarrow's do); the first failure is raised."""
+        if threads <= 1 or len(writers) <= 1:
+            return [self.add(name, write) for name, write in writers]
+        with ThreadPoolExecutor(max_workers=threads) as pool:
+            # Each task runs in a copy of this context, so the run's protected inputs hold there.
+            futures = [
+                pool.submit(contextvars.copy_context().run, self.add, name, write)
+                for name, write in writers
+            ]
+            return [future.result() for future in futures]
 
     def publish(self) -> list[Path]:
         for staged, target in self._staged:
