@@ -2,20 +2,11 @@
 
 from __future__ import annotations
 
-import shutil
 from pathlib import Path
 
-import pytest
+from tests.cli.test_match_cli import SUMMARY, TABLE_FILES, lines, run, workdir
 
-from tests.cli.test_match_cli import CASE, lines, run
-
-
-@pytest.fixture
-def workdir(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    for name in ("fills.csv", "financing.csv"):
-        shutil.copy(CASE / name, tmp_path / name)
-    monkeypatch.chdir(tmp_path)
-    return tmp_path
+__all__ = ["workdir"]  # the whole run's fixture, so both runs start from the same folder
 
 
 def test_batched_match_prints_the_whole_runs_summary(workdir: Path) -> None:
@@ -23,34 +14,8 @@ def test_batched_match_prints_the_whole_runs_summary(workdir: Path) -> None:
         "match", "fills.csv", "--financing", "financing.csv", "--out", "out", "--batch-rows", "2"
     )
     assert result.exit_code == 0, result.output
-    # the figures of test_match_cli's whole run of the same case
-    assert lines(result.stdout) == [
-        "Matched 6 fills from fills.csv",
-        "  with 3 financing events from financing.csv",
-        "Relief FIFO, commission at-close, rounding half-even",
-        "closed lots   round trips   open lots   positions   unattributed",
-        "────────────────────────────────────────────────────────────────",
-        "          4             2           1           2              1",
-        "Realized by currency",
-        "currency   realized gross   commission   financing   realized net",
-        "─────────────────────────────────────────────────────────────────",
-        "JPY                 3,400          100          -3          3,297",
-        "USD              1,687.50         4.50       -1.90       1,681.10",
-        "Results in out/: closed_lots.csv, round_trips.csv, open_lots.csv, positions.csv, "
-        "unattributed.csv,",
-        "run.json",
-        "reconcile's output is not tax, accounting or legal advice. Local rules and a licensed "
-        "professional",
-        "prevail.",
-    ]
-    assert sorted(p.name for p in (workdir / "out").iterdir()) == [
-        "closed_lots.csv",
-        "open_lots.csv",
-        "positions.csv",
-        "round_trips.csv",
-        "run.json",
-        "unattributed.csv",
-    ]
+    assert lines(result.stdout) == SUMMARY  # the whole run's summary of the same case
+    assert sorted(p.name for p in (workdir / "out").iterdir()) == TABLE_FILES
 
 
 def test_batched_and_whole_runs_write_the_same_files(workdir: Path) -> None:

@@ -13,6 +13,37 @@ from reconcile.cli import app
 CASE = Path(__file__).parents[1] / "golden" / "flip-and-yen"
 
 
+#: The terminal summary of matching the case with its financing (at COLUMNS=100).
+SUMMARY = [
+    "Matched 6 fills from fills.csv",
+    "  with 3 financing events from financing.csv",
+    "Relief FIFO, commission at-close, rounding half-even",
+    "closed lots   round trips   open lots   positions   unattributed",
+    "────────────────────────────────────────────────────────────────",
+    "          4             2           1           2              1",
+    "Realized by currency",
+    "currency   realized gross   commission   financing   realized net",
+    "─────────────────────────────────────────────────────────────────",
+    "JPY                 3,400          100          -3          3,297",
+    "USD              1,687.50         4.50       -1.90       1,681.10",
+    "Results in out/: closed_lots.csv, round_trips.csv, open_lots.csv, positions.csv, "
+    "unattributed.csv,",
+    "run.json",
+    "reconcile's output is not tax, accounting or legal advice. Local rules and a licensed "
+    "professional",
+    "prevail.",
+]
+#: The files a CSV match writes.
+TABLE_FILES = [
+    "closed_lots.csv",
+    "open_lots.csv",
+    "positions.csv",
+    "round_trips.csv",
+    "run.json",
+    "unattributed.csv",
+]
+
+
 def run(*args: str) -> Result:
     return CliRunner().invoke(app, list(args), env={"COLUMNS": "100", "NO_COLOR": "1"})
 
@@ -32,33 +63,8 @@ def workdir(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
 def test_match_prints_a_summary_and_writes_every_table(workdir: Path) -> None:
     result = run("match", "fills.csv", "--financing", "financing.csv", "--out", "out")
     assert result.exit_code == 0, result.output
-    assert lines(result.stdout) == [
-        "Matched 6 fills from fills.csv",
-        "  with 3 financing events from financing.csv",
-        "Relief FIFO, commission at-close, rounding half-even",
-        "closed lots   round trips   open lots   positions   unattributed",
-        "────────────────────────────────────────────────────────────────",
-        "          4             2           1           2              1",
-        "Realized by currency",
-        "currency   realized gross   commission   financing   realized net",
-        "─────────────────────────────────────────────────────────────────",
-        "JPY                 3,400          100          -3          3,297",
-        "USD              1,687.50         4.50       -1.90       1,681.10",
-        "Results in out/: closed_lots.csv, round_trips.csv, open_lots.csv, positions.csv, "
-        "unattributed.csv,",
-        "run.json",
-        "reconcile's output is not tax, accounting or legal advice. Local rules and a licensed "
-        "professional",
-        "prevail.",
-    ]
-    assert sorted(p.name for p in (workdir / "out").iterdir()) == [
-        "closed_lots.csv",
-        "open_lots.csv",
-        "positions.csv",
-        "round_trips.csv",
-        "run.json",
-        "unattributed.csv",
-    ]
+    assert lines(result.stdout) == SUMMARY
+    assert sorted(p.name for p in (workdir / "out").iterdir()) == TABLE_FILES
 
 
 def test_method_and_convention_are_named_in_the_summary(workdir: Path) -> None:
