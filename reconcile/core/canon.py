@@ -217,7 +217,9 @@ class _Checker:
             "bad time",
         )
         offset = pc.fill_null(pc.struct_field(parts, "offset"), "-")
-        strings = pd.Series(pc.replace_substring(text, ",", ".").to_pylist(), dtype=object)
+        # RFC 3339 allows a lower-case z for UTC, which the ISO parser refuses.
+        plain = pc.replace_substring_regex(pc.replace_substring(text, ",", "."), "z$", "Z")
+        strings = pd.Series(plain.to_pylist(), dtype=object)
         result = pd.Series(pd.NaT, index=range(len(series)), dtype=TIME_DTYPE)
         with_offset = _mask(pc.and_(pc.is_valid(parts), pc.not_equal(offset, "")))
         naive = _mask(pc.equal(offset, ""))

@@ -221,3 +221,9 @@ def test_a_column_of_ours_is_not_suggested_as_a_misspelling_of_another() -> None
     assert str(caught.value).startswith(
         "fills.csv: missing required columns: event_id, amount, kind; the header has: fill_id"
     )
+
+
+def test_a_lower_case_z_is_utc() -> None:
+    # RFC 3339 section 5.6 notes that "T" and "Z" may be written lower case (quoted from memory).
+    frame = canonical_fills(_with("time", "2026-11-02T10:00:00z", row=0))
+    assert str(frame["time"].iloc[0]) == "2026-11-02 10:00:00+00:00"
