@@ -104,8 +104,10 @@ def check_carried_lots(fills: pd.DataFrame, opening: pd.DataFrame) -> None:
     source, fill_source = _label(opening, "opening"), _label(fills, "fills")
     rows = opening.reset_index(drop=True)
     problems = []
-    seen = dict(zip(fills["fill_id"], fills[schema.SOURCE_ROW], strict=True))
-    for index in np.flatnonzero(rows["open_fill_id"].isin(seen).to_numpy()):
+    clash = rows["open_fill_id"].isin(fills["fill_id"]).to_numpy()
+    hits = fills[fills["fill_id"].isin(rows["open_fill_id"][clash])]  # few: map only those
+    seen = dict(zip(hits["fill_id"], hits[schema.SOURCE_ROW], strict=True))
+    for index in np.flatnonzero(clash):
         fill_id = rows["open_fill_id"].iloc[index]
         problems.append(
             Problem(
