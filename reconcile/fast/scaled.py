@@ -20,6 +20,8 @@ from reconcile.fast._jit import jit, numba_available
 INPUT_LIMIT = 2**62
 LIMIT = 2**63 - 1
 POW10 = np.array([10**k for k in range(19)], dtype=np.int64)
+#: The largest magnitude that 10**k times leaves inside int64 (a table: division is slow).
+FITS_TIMES_POW10 = np.array([LIMIT // 10**k for k in range(19)], dtype=np.int64)
 
 
 def unscaled(values: pa.Array | pa.ChunkedArray) -> tuple[np.ndarray, int, np.ndarray]:
@@ -143,6 +145,10 @@ def to_decimal(
     if not len(values):
         return pa.array([], pa.decimal128(1, 0))
     scale, lowest = int(row_scales.max()), int(row_scales.min())
+    if numba_available() and scale - lowest <= 18:
+        fused = _fused_decimal(values, row_scales, scale, valid)
+        if fused is not None:
+            return fused
     raised, bad = values, np.zeros(1, bool)
     if lowest < scale and scale - lowest <= 18:
         raised, bad = checked_mul(values, POW10[np.minimum(scale - row_scales, 18)])
@@ -153,6 +159,59 @@ def to_decimal(
         if whole + scale <= 38:
             return _from_ints(raised, pa.decimal128(whole + scale, scale), valid)
     return _mixed_scales(values, row_scales, valid)
+
+
+def _fused_decimal(
+    values: np.ndarray, row_scales: np.ndarray, scale: int, valid: np.ndarray | None
+) -> pa.Array | None:
+    """:func:`to_decimal` in one compiled pass (raise to ``scale``, find the largest, lay out the
+    128-bit words); None when a raised value would leave 64 bits."""
+    shifts = np.ascontiguousarray(scale - row_scales) if row_scales.strides[0] else None
+    # Arrow's own pool reuses freed pages, so a large column does not fault in fresh memory.
+    buffer = pa.allocate_buffer(16 * len(values))
+    words = np.frombuffer(buffer, dtype=np.int64).reshape(-1, 2)
+    present = np.ones(0, bool) if valid is None else np.ascontiguousarray(valid, bool)
+    largest = _raise_into_words(
+        values,
+        np.zeros(1, np.int64) if shifts is None else shifts,
+        shifts is not None,
+        present,
+        words,
+    )
+    if largest < 0:
+        return None
+    whole = max(len(str(largest)) - scale, 1) if largest else 1
+    if whole + scale > 38:
+        return None
+    validity = None
+    if valid is not None and not valid.all():
+        validity = pa.array(valid).buffers()[1]
+    kind = pa.decimal128(whole + scale, scale)
+    return pa.Array.from_buffers(kind, len(values), [validity, buffer])
+
+
+@jit
+def _raise_into_words(values: Any, shifts: Any, per_row: Any, present: Any, words: Any) -> Any:
+    """Each value times 10**shift as the low and high words of a 128-bit integer; returns the
+    largest magnitude among present rows (every row when ``present`` is empty), or -1 when a
+    value does not fit."""
+    largest = 0
+    shift = shifts[0]
+    for i in range(len(values)):
+        value = values[i]
+        if per_row:
+            shift = shifts[i]
+        if value == -LIMIT - 1:
+            return -1  # its magnitude is not an int64
+        if shift > 0:
+            if abs(value) > FITS_TIMES_POW10[shift]:
+                return -1
+            value = value * POW10[shift]
+        words[i, 0] = value
+        words[i, 1] = -1 if value < 0 else 0
+        if (len(present) == 0 or present[i]) and abs(value) > largest:
+            largest = abs(value)
+    return largest
 
 
 def _mixed_scales(values: np.ndarray, row_scales: np.ndarray, valid: np.ndarray | None) -> pa.Array:

@@ -10,6 +10,7 @@ one definition, checked against the decimal module's).
 from __future__ import annotations
 
 from decimal import Decimal
+from unittest.mock import patch
 
 import numpy as np
 from hypothesis import given
@@ -123,3 +124,28 @@ def test_rescaling_agrees_with_exact_integers(rows: list[tuple[int, int]], scale
             assert bool(bad[i]) == (not fits)
             if fits:
                 assert int(out[i]) == expected
+
+
+@given(
+    rows=st.lists(st.tuples(st.one_of(INTS, SMALL), st.integers(0, 12), st.booleans()), min_size=1),
+    uniform=st.booleans(),
+)
+def test_decimal_columns_hold_each_integer_at_its_own_scale(
+    rows: list[tuple[int, int, bool]], uniform: bool
+) -> None:
+    values = np.array([r[0] for r in rows], np.int64)
+    scales: np.ndarray | int = rows[0][1] if uniform else np.array([r[1] for r in rows], np.int64)
+    valid = np.array([r[2] for r in rows], bool)
+    expected = [
+        Decimal(value).scaleb(-(rows[0][1] if uniform else places)) if present else None
+        for value, places, present in rows
+    ]
+    present = [e for e in expected if e is not None]
+    # The narrowest type: whole digits of the largest value (at least one) plus the scale.
+    scale = rows[0][1] if uniform else max(r[1] for r in rows)
+    whole = max((e.adjusted() + 1 for e in present if e), default=1)
+    for compiled in (True, False):  # the fused compiled pass and the whole-column numpy steps
+        with patch.object(scaled, "numba_available", return_value=compiled):
+            column = scaled.to_decimal(values, scales, valid)
+        assert column.to_pylist() == expected
+        assert (column.type.precision, column.type.scale) == (max(whole, 1) + scale, scale)
