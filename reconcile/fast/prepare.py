@@ -11,6 +11,7 @@ them in its own words.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -150,16 +151,35 @@ def _code_keys(sources: dict[str, Source]) -> tuple[pa.Array, pa.Array]:
         names.append(dictionary.take(pa.array(order)))
     width = max(len(names[1]), 1)
     combined = [a * width + i for a, i in zip(ranks[0], ranks[1], strict=True)]
-    flat = np.concatenate(combined) if combined else np.zeros(0, np.int64)
-    used = np.unique(flat)
+    used, places = _used_pairs(combined, len(names[0]) * width)
     for source, coded in zip(present, combined, strict=True):
-        source.keys = np.searchsorted(used, coded)
+        source.keys = places(coded)
     for source in sources.values():
         if not source.columns:
             source.keys = np.zeros(0, np.int64)
     accounts = names[0].take(pa.array(used // width)).cast(pa.string())
     instruments = names[1].take(pa.array(used % width)).cast(pa.string())
     return accounts, instruments
+
+
+def _used_pairs(
+    combined: list[np.ndarray], pairs: int
+) -> tuple[np.ndarray, Callable[[np.ndarray], np.ndarray]]:
+    """The pair codes in use, sorted, and a map from a pair code to its place among them.
+
+    When the pair space is not much larger than the rows, a table of every pair answers both in
+    linear time; otherwise a sort does.
+    """
+    rows = sum(len(c) for c in combined)
+    if pairs <= 4 * rows + 1024:
+        seen = np.zeros(pairs, bool)
+        for coded in combined:
+            seen[coded] = True
+        place = np.cumsum(seen) - 1
+        return np.flatnonzero(seen), lambda coded: place[coded]
+    flat = np.concatenate(combined) if combined else np.zeros(0, np.int64)
+    used = np.unique(flat)
+    return used, lambda coded: np.searchsorted(used, coded)
 
 
 def _text_chunks(arrays: list[pa.Array]) -> pa.ChunkedArray:
