@@ -91,6 +91,11 @@ def _tight(values: pa.ChunkedArray) -> pa.Array:
     """The column at the narrowest precision its values need, as canon types parsed text."""
     array = values.combine_chunks()
     scale = array.type.scale
-    largest = pc.max(pc.abs(array)).as_py() if array.null_count < len(array) else None
+    if array.null_count == len(array):
+        return array.cast(pa.decimal128(1 + scale, scale))
+    bounds = pc.min_max(array)
+    largest = max(abs(bounds["min"].as_py()), abs(bounds["max"].as_py()))
     whole = max(largest.adjusted() + 1, 1) if largest else 1
-    return array.cast(pa.decimal128(whole + scale, scale))
+    # Every value fits the narrower precision, and decimal128 lays out every precision alike:
+    # a view retypes the column without the cast's pass over each value.
+    return array.view(pa.decimal128(whole + scale, scale))
