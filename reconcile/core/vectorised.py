@@ -69,7 +69,11 @@ def iso_times(text: pa.Array) -> pa.Array | None:
 
 def repeated(values: pa.Array) -> np.ndarray:
     """Rows whose value occurs more than once in the column."""
-    if len(pc.unique(values)) == len(values):  # the usual case (unique ids), found by one hash
+    from reconcile.fast.hashing import all_distinct  # compiled when numba is installed
+
+    if all_distinct(values) or len(pc.unique(values)) == len(
+        values
+    ):  # the usual case (unique ids), found by one hash
         return np.zeros(len(values), bool)
     codes = _codes(values)
     counts = np.bincount(codes) if len(codes) else np.zeros(0, np.int64)
