@@ -16,6 +16,7 @@ from reconcile.fast import kernel
 from reconcile.fast.prepare import Prepared
 from reconcile.fast.scaled import checked_add, checked_mul, ratio, round_to_places
 from reconcile.fast.tables import KernelOutput
+from reconcile.fast.threads import concurrently
 
 AVERAGE = kernel.AVERAGE_PLACES
 
@@ -76,23 +77,29 @@ def finish(
     p, t, lots, k = out.pieces, out.trips, out.lots, out.keys
     pk, tk, lk = p[:, 0], t[:, 0], lots[:, 0]
     keys = np.arange(len(k))
-    derived = {
-        "piece_gross": f.money(p[:, 5], pk),
-        "piece_net": f.net(p[:, 5], p[:, 7], p[:, 8], pk),
-        "piece_open_price": f.average_price(p[:, 4], p[:, 6], pk) if average else p[:, 4],
-        "trip_entry": f.mean_price(t[:, 3], t[:, 9], tk),
-        "trip_exit": f.mean_price(t[:, 4], t[:, 11], tk),
-        "trip_gross": f.money(t[:, 6], tk),
-        "trip_commission": f.money(t[:, 7], tk),
-        "trip_financing": f.money(t[:, 8], tk),
-        "trip_net": f.net(t[:, 6], t[:, 7], t[:, 8], tk),
-        "lot_open_price": f.average_price(lots[:, 6], lots[:, 2], lk) if average else lots[:, 3],
-        "key_average": f.average_price(k[:, 1], k[:, 2], keys),
-        "key_gross": f.money(k[:, 3], keys),
-        "key_commission": f.money(k[:, 4], keys),
-        "key_financing": f.money(k[:, 5], keys),
-        "key_net": f.net(k[:, 3], k[:, 4], k[:, 5], keys),
-    }
+    derived = concurrently(
+        {
+            "piece_gross": lambda: f.money(p[:, 5], pk),
+            "piece_net": lambda: f.net(p[:, 5], p[:, 7], p[:, 8], pk),
+            "piece_open_price": lambda: (
+                f.average_price(p[:, 4], p[:, 6], pk) if average else p[:, 4]
+            ),
+            "trip_entry": lambda: f.mean_price(t[:, 3], t[:, 9], tk),
+            "trip_exit": lambda: f.mean_price(t[:, 4], t[:, 11], tk),
+            "trip_gross": lambda: f.money(t[:, 6], tk),
+            "trip_commission": lambda: f.money(t[:, 7], tk),
+            "trip_financing": lambda: f.money(t[:, 8], tk),
+            "trip_net": lambda: f.net(t[:, 6], t[:, 7], t[:, 8], tk),
+            "lot_open_price": lambda: (
+                f.average_price(lots[:, 6], lots[:, 2], lk) if average else lots[:, 3]
+            ),
+            "key_average": lambda: f.average_price(k[:, 1], k[:, 2], keys),
+            "key_gross": lambda: f.money(k[:, 3], keys),
+            "key_commission": lambda: f.money(k[:, 4], keys),
+            "key_financing": lambda: f.money(k[:, 5], keys),
+            "key_net": lambda: f.net(k[:, 3], k[:, 4], k[:, 5], keys),
+        }
+    )
     bad = np.zeros(len(k), bool)
     for flagged in f.bad_keys:
         bad[flagged] = True

@@ -6,6 +6,7 @@ reference engine produced for keys that did not fit are merged in.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -16,6 +17,7 @@ from reconcile import schema
 from reconcile.fast import kernel
 from reconcile.fast.prepare import Prepared
 from reconcile.fast.scaled import ints_of, to_decimal
+from reconcile.fast.threads import concurrently
 
 KEY = "_key"
 TIME = pa.timestamp("ns", tz="UTC")
@@ -106,65 +108,75 @@ class TableBuilder:
         rows, times = self.out.pieces, self.out.piece_times
         keys = rows[:, 0]
         ws, minor = self.p.key["ws"][keys], self.p.key["minor"][keys]
-        columns = {
-            **self._key_columns(keys),
-            "direction": DIRECTIONS.take(pa.array((rows[:, 11] > 0).astype(np.int64))),
-            "open_fill_id": self.lot_ids.take(pa.array(rows[:, 1])),
-            "close_fill_id": self.fill_ids.take(pa.array(rows[:, 2])),
-            "open_time": _times(times[:, 0]),
-            "close_time": _times(times[:, 1]),
-            "quantity": to_decimal(rows[:, 3], self.p.key["qs"][keys]),
-            "open_price": self._open_price(self.d["piece_open_price"], keys, average),
-            "close_price": self.fill_prices.take(pa.array(rows[:, 2])),
-            "gross_pnl": to_decimal(self.d["piece_gross"], minor),
-            "commission": to_decimal(rows[:, 7], ws),
-            "financing": to_decimal(rows[:, 8], ws),
-            "net_pnl": to_decimal(self.d["piece_net"], minor),
-            "multiplier": self._multiplier(keys),
-            "gross_pnl_unrounded": to_decimal(rows[:, 5], ws),
-            "trip_id": self._trip_ids(keys, rows[:, 10]),
-        }
+        qs = self.p.key["qs"][keys]
+        columns = _concurrently(
+            {
+                "key": lambda: self._key_columns(keys),
+                "direction": lambda: _directions(rows[:, 11]),
+                "open_fill_id": lambda: self.lot_ids.take(pa.array(rows[:, 1])),
+                "close_fill_id": lambda: self.fill_ids.take(pa.array(rows[:, 2])),
+                "open_time": lambda: _times(times[:, 0]),
+                "close_time": lambda: _times(times[:, 1]),
+                "quantity": lambda: to_decimal(rows[:, 3], qs),
+                "open_price": lambda: self._open_price(self.d["piece_open_price"], keys, average),
+                "close_price": lambda: self.fill_prices.take(pa.array(rows[:, 2])),
+                "gross_pnl": lambda: to_decimal(self.d["piece_gross"], minor),
+                "commission": lambda: to_decimal(rows[:, 7], ws),
+                "financing": lambda: to_decimal(rows[:, 8], ws),
+                "net_pnl": lambda: to_decimal(self.d["piece_net"], minor),
+                "multiplier": lambda: self._multiplier(keys),
+                "gross_pnl_unrounded": lambda: to_decimal(rows[:, 5], ws),
+                "trip_id": lambda: self._trip_ids(keys, rows[:, 10]),
+            }
+        )
         return _table(columns, schema.CLOSED_LOTS, keys)
 
     def round_trips(self) -> pa.Table:
         rows, times = self.out.trips, self.out.trip_times
         keys = rows[:, 0]
         minor = self.p.key["minor"][keys]
-        columns = {
-            "trip_id": self._trip_ids(keys, rows[:, 10]),
-            **self._key_columns(keys),
-            "direction": DIRECTIONS.take(pa.array((rows[:, 1] > 0).astype(np.int64))),
-            "open_time": _times(times[:, 0]),
-            "close_time": _times(times[:, 1]),
-            "max_quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
-            "entry_price": to_decimal(self.d["trip_entry"], kernel.AVERAGE_PLACES),
-            "exit_price": to_decimal(self.d["trip_exit"], kernel.AVERAGE_PLACES),
-            "fills": pa.array(rows[:, 5], pa.int64()),
-            "gross_pnl": to_decimal(self.d["trip_gross"], minor),
-            "commission": to_decimal(self.d["trip_commission"], minor),
-            "financing": to_decimal(self.d["trip_financing"], minor),
-            "net_pnl": to_decimal(self.d["trip_net"], minor),
-            "holding_time": pa.array(times[:, 1] - times[:, 0], pa.int64()).view(pa.duration("ns")),
-        }
+        d = self.d
+        columns = _concurrently(
+            {
+                "trip_id": lambda: self._trip_ids(keys, rows[:, 10]),
+                "key": lambda: self._key_columns(keys),
+                "direction": lambda: _directions(rows[:, 1]),
+                "open_time": lambda: _times(times[:, 0]),
+                "close_time": lambda: _times(times[:, 1]),
+                "max_quantity": lambda: to_decimal(rows[:, 2], self.p.key["qs"][keys]),
+                "entry_price": lambda: to_decimal(d["trip_entry"], kernel.AVERAGE_PLACES),
+                "exit_price": lambda: to_decimal(d["trip_exit"], kernel.AVERAGE_PLACES),
+                "fills": lambda: pa.array(rows[:, 5], pa.int64()),
+                "gross_pnl": lambda: to_decimal(d["trip_gross"], minor),
+                "commission": lambda: to_decimal(d["trip_commission"], minor),
+                "financing": lambda: to_decimal(d["trip_financing"], minor),
+                "net_pnl": lambda: to_decimal(d["trip_net"], minor),
+                "holding_time": lambda: pa.array(times[:, 1] - times[:, 0], pa.int64()).view(
+                    pa.duration("ns")
+                ),
+            }
+        )
         return _table(columns, schema.ROUND_TRIPS, keys)
 
     def open_lots(self, average: bool) -> pa.Table:
         rows = self.out.lots
         keys = rows[:, 0]
         ws = self.p.key["ws"][keys]
-        columns = {
-            **self._key_columns(keys),
-            "direction": DIRECTIONS.take(pa.array((rows[:, 8] > 0).astype(np.int64))),
-            "open_fill_id": self.lot_ids.take(pa.array(rows[:, 1])),
-            "open_time": _times(self.out.lot_times),
-            "quantity": to_decimal(rows[:, 2], self.p.key["qs"][keys]),
-            "open_price": self._open_price(self.d["lot_open_price"], keys, average),
-            "commission": to_decimal(rows[:, 4], ws),
-            "financing": to_decimal(rows[:, 5], ws),
-            "multiplier": self._multiplier(keys),
-            "cost_basis": to_decimal(rows[:, 6], ws),
-            "trip_id": self._trip_ids(keys, rows[:, 7]),
-        }
+        columns = _concurrently(
+            {
+                "key": lambda: self._key_columns(keys),
+                "direction": lambda: _directions(rows[:, 8]),
+                "open_fill_id": lambda: self.lot_ids.take(pa.array(rows[:, 1])),
+                "open_time": lambda: _times(self.out.lot_times),
+                "quantity": lambda: to_decimal(rows[:, 2], self.p.key["qs"][keys]),
+                "open_price": lambda: self._open_price(self.d["lot_open_price"], keys, average),
+                "commission": lambda: to_decimal(rows[:, 4], ws),
+                "financing": lambda: to_decimal(rows[:, 5], ws),
+                "multiplier": lambda: self._multiplier(keys),
+                "cost_basis": lambda: to_decimal(rows[:, 6], ws),
+                "trip_id": lambda: self._trip_ids(keys, rows[:, 7]),
+            }
+        )
         return _table(columns, schema.OPEN_LOTS, keys)
 
     def positions(self, keys: np.ndarray) -> pa.Table:
@@ -206,6 +218,20 @@ class TableBuilder:
 
     def _multiplier(self, keys: np.ndarray) -> pa.Array:
         return to_decimal(self.p.key["mult"][keys], self.p.key["ms"][keys])
+
+
+def _concurrently(
+    makers: dict[str, Callable[[], pa.Array | dict[str, pa.Array]]],
+) -> dict[str, pa.Array]:
+    """A table's columns, built concurrently; a maker may return several named columns."""
+    columns: dict[str, pa.Array] = {}
+    for name, made in concurrently(makers).items():
+        columns |= made if isinstance(made, dict) else {name: made}
+    return columns
+
+
+def _directions(signs: np.ndarray) -> pa.Array:
+    return DIRECTIONS.take(pa.array((signs > 0).astype(np.int64)))
 
 
 def _times(values: np.ndarray) -> pa.Array:
