@@ -21,6 +21,7 @@ import pyarrow.compute as pc
 
 from reconcile import schema
 from reconcile.core import vectorised
+from reconcile.core.threads import concurrently
 from reconcile.errors import MissingColumnsError, Problem, ValidationError, raise_if_problems
 from reconcile.money import is_known_currency, minor_unit
 from reconcile.timezones import zone
@@ -542,22 +543,30 @@ def canonical_fills(
     if timezone is not None:
         zone(timezone)  # an unknown zone is an error even when no time needs it
     check = _Checker(frame, source, _source_rows(frame))
-    columns: dict[str, pa.Array | pd.Series] = {
-        "fill_id": check.text("fill_id", required=True),
-        "account": check.text("account", required=True),
-        "instrument": check.text("instrument", required=True),
-        "side": check.choice("side", schema.SIDES, "buy or sell (also B or S, any case)"),
-        "quantity": check.decimal("quantity", rule=">0", expected="a decimal > 0"),
-        "price": check.decimal("price"),
-        "time": check.time("time", timezone),
-        "commission": check.decimal(
-            "commission", default="0", rule=">=0", expected="a decimal >= 0"
-        ),
-        "currency": check.currency("currency"),
-        "multiplier": check.decimal("multiplier", default="1", rule=">0", expected="a decimal > 0"),
-        "order_id": check.text("order_id", required=False),
-        "venue": check.text("venue", required=False),
-    }
+    # Columns convert independently (Arrow releases the interpreter lock); problems are sorted
+    # by row and column before they are reported, so the order they are found in does not show.
+    columns: dict[str, pa.Array | pd.Series] = concurrently(
+        {
+            "fill_id": lambda: check.text("fill_id", required=True),
+            "account": lambda: check.text("account", required=True),
+            "instrument": lambda: check.text("instrument", required=True),
+            "side": lambda: check.choice(
+                "side", schema.SIDES, "buy or sell (also B or S, any case)"
+            ),
+            "quantity": lambda: check.decimal("quantity", rule=">0", expected="a decimal > 0"),
+            "price": lambda: check.decimal("price"),
+            "time": lambda: check.time("time", timezone),
+            "commission": lambda: check.decimal(
+                "commission", default="0", rule=">=0", expected="a decimal >= 0"
+            ),
+            "currency": lambda: check.currency("currency"),
+            "multiplier": lambda: check.decimal(
+                "multiplier", default="1", rule=">0", expected="a decimal > 0"
+            ),
+            "order_id": lambda: check.text("order_id", required=False),
+            "venue": lambda: check.text("venue", required=False),
+        }
+    )
     compare = [c for c in frame.columns if c != schema.SOURCE_ROW]
     keep = check.check_distinct_ids("fill_id", columns["fill_id"], compare, dedupe)
     result = _assemble(columns, frame, keep, _extras(frame, schema.FILL_COLUMNS), check.rows)
@@ -587,15 +596,23 @@ def canonical_financing(
         zone(timezone)  # an unknown zone is an error even when no time needs it
     check = _Checker(frame, source, _source_rows(frame))
     kinds = {k: k for k in schema.FINANCING_KINDS}
-    columns: dict[str, pa.Array | pd.Series] = {
-        "event_id": check.text("event_id", required=True),
-        "account": check.text("account", required=True),
-        "instrument": check.text("instrument", required=True),
-        "time": check.time("time", timezone),
-        "amount": check.decimal("amount", expected="a signed decimal (negative is a charge)"),
-        "currency": check.currency("currency"),
-        "kind": check.choice("kind", kinds, "one of " + ", ".join(schema.FINANCING_KINDS)),
-    }
+    # Columns convert independently (Arrow releases the interpreter lock); problems are sorted
+    # by row and column before they are reported, so the order they are found in does not show.
+    columns: dict[str, pa.Array | pd.Series] = concurrently(
+        {
+            "event_id": lambda: check.text("event_id", required=True),
+            "account": lambda: check.text("account", required=True),
+            "instrument": lambda: check.text("instrument", required=True),
+            "time": lambda: check.time("time", timezone),
+            "amount": lambda: check.decimal(
+                "amount", expected="a signed decimal (negative is a charge)"
+            ),
+            "currency": lambda: check.currency("currency"),
+            "kind": lambda: check.choice(
+                "kind", kinds, "one of " + ", ".join(schema.FINANCING_KINDS)
+            ),
+        }
+    )
     compare = [c for c in frame.columns if c != schema.SOURCE_ROW]
     keep = check.check_distinct_ids("event_id", columns["event_id"], compare, dedupe)
     result = _assemble(columns, frame, keep, _extras(frame, schema.FINANCING_COLUMNS), check.rows)
@@ -619,21 +636,27 @@ def canonical_opening(
         zone(timezone)  # an unknown zone is an error even when no time needs it
     check = _Checker(frame, source, _source_rows(frame))
     directions = {"long": "long", "short": "short"}
-    columns: dict[str, pa.Array | pd.Series] = {
-        "account": check.text("account", required=True),
-        "instrument": check.text("instrument", required=True),
-        "currency": check.currency("currency"),
-        "direction": check.choice("direction", directions, "long or short"),
-        "open_fill_id": check.text("open_fill_id", required=True),
-        "open_time": check.time("open_time", timezone),
-        "quantity": check.decimal("quantity", rule=">0", expected="a decimal > 0"),
-        "open_price": check.decimal("open_price"),
-        "commission": check.decimal(
-            "commission", default="0", rule=">=0", expected="a decimal >= 0"
-        ),
-        "financing": check.decimal("financing", default="0"),
-        "multiplier": check.decimal("multiplier", default="1", rule=">0", expected="a decimal > 0"),
-    }
+    # Columns convert independently (Arrow releases the interpreter lock); problems are sorted
+    # by row and column before they are reported, so the order they are found in does not show.
+    columns: dict[str, pa.Array | pd.Series] = concurrently(
+        {
+            "account": lambda: check.text("account", required=True),
+            "instrument": lambda: check.text("instrument", required=True),
+            "currency": lambda: check.currency("currency"),
+            "direction": lambda: check.choice("direction", directions, "long or short"),
+            "open_fill_id": lambda: check.text("open_fill_id", required=True),
+            "open_time": lambda: check.time("open_time", timezone),
+            "quantity": lambda: check.decimal("quantity", rule=">0", expected="a decimal > 0"),
+            "open_price": lambda: check.decimal("open_price"),
+            "commission": lambda: check.decimal(
+                "commission", default="0", rule=">=0", expected="a decimal >= 0"
+            ),
+            "financing": lambda: check.decimal("financing", default="0"),
+            "multiplier": lambda: check.decimal(
+                "multiplier", default="1", rule=">0", expected="a decimal > 0"
+            ),
+        }
+    )
     columns["cost_basis"] = check.decimal("cost_basis", optional=True)
     keep = np.ones(len(frame), dtype=bool)
     result = _assemble(columns, frame, keep, [], check.rows)

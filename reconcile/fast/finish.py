@@ -12,11 +12,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
 from reconcile.fast.prepare import Prepared
 from reconcile.fast.scaled import checked_add, checked_mul, ratio, round_to_places
 from reconcile.fast.tables import KernelOutput
-from reconcile.fast.threads import concurrently
 
 AVERAGE = kernel.AVERAGE_PLACES
 

@@ -14,10 +14,10 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from reconcile import schema
+from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
 from reconcile.fast.prepare import Prepared
 from reconcile.fast.scaled import ints_of, to_decimal
-from reconcile.fast.threads import concurrently
 
 KEY = "_key"
 TIME = pa.timestamp("ns", tz="UTC")
