@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -20,6 +21,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
 from reconcile.fast._jit import numba_available
 from reconcile.fast.scaled import POW10, checked_mul, ints_of, rescale, significant_places, unscaled
@@ -233,6 +235,15 @@ def _key_currencies(sources: dict[str, Source], key_count: int) -> tuple[pa.Arra
     return dictionary.take(pa.array(low)).cast(pa.string()), places[low]
 
 
+OPENING_DECIMALS = ("quantity", "open_price", "commission", "financing", "multiplier")
+#: Every decimal input column the kernel reads, as (source, column).
+DECIMALS: tuple[tuple[str, str], ...] = (
+    *(("fills", n) for n in ("quantity", "price", "commission", "multiplier")),
+    ("financing", "amount"),
+    *(("opening", n) for n in (*OPENING_DECIMALS, "cost_basis")),
+)
+
+
 class _Scales:
     """Per-key scales, and every decimal at its key's scale."""
 
@@ -242,6 +253,9 @@ class _Scales:
         self.minor = minor
         self.status = np.zeros(key_count, dtype=np.int64)
         self.keys = {name: s.sorted_keys for name, s in sources.items()}
+
+    def _decimals(self, source: str, name: str) -> tuple[np.ndarray, int]:
+        return self.column(source, name) if len(self.sources[source]) else (_none(), 0)
 
     def column(self, source: str, name: str) -> tuple[np.ndarray, int]:
         """A decimal column in sorted order, as integers at the column's scale."""
@@ -277,16 +291,16 @@ class _Scales:
         return out
 
     def build(self, method: str) -> Prepared:
-        has = {name: len(s) > 0 for name, s in self.sources.items()}
-        f_qty, fq_s = self.column("fills", "quantity") if has["fills"] else (_none(), 0)
-        f_price, fp_s = self.column("fills", "price") if has["fills"] else (_none(), 0)
-        f_comm, fc_s = self.column("fills", "commission") if has["fills"] else (_none(), 0)
-        f_mult, fm_s = self.column("fills", "multiplier") if has["fills"] else (_none(), 0)
-        e_amt, e_s = self.column("financing", "amount") if has["financing"] else (_none(), 0)
-        o = {}
-        for name in ("quantity", "open_price", "commission", "financing", "multiplier"):
-            o[name] = self.column("opening", name) if has["opening"] else (_none(), 0)
-        o_basis = self.column("opening", "cost_basis") if has["opening"] else (_none(), 0)
+        read = concurrently(
+            {f"{source}/{name}": partial(self._decimals, source, name) for source, name in DECIMALS}
+        )
+        f_qty, fq_s = read["fills/quantity"]
+        f_price, fp_s = read["fills/price"]
+        f_comm, fc_s = read["fills/commission"]
+        f_mult, fm_s = read["fills/multiplier"]
+        e_amt, e_s = read["financing/amount"]
+        o = {name: read[f"opening/{name}"] for name in OPENING_DECIMALS}
+        o_basis = read["opening/cost_basis"]
         qs = self.key_places([("fills", (f_qty, fq_s)), ("opening", o["quantity"])])
         ps = self.key_places([("fills", (f_price, fp_s)), ("opening", o["open_price"])])
         ms = self.key_places([("fills", (f_mult, fm_s)), ("opening", o["multiplier"])])
@@ -386,14 +400,16 @@ class _Scales:
             return {n: _none() for n in ("time", "sign", "qty", "price", "comm", "row")}
         order = self.sources["fills"].order
         buys = np.asarray(pc.equal(columns["side"], "buy").to_numpy(zero_copy_only=False), bool)
-        return {
-            "time": self.sources["fills"].sorted_ints("time"),
-            "sign": np.where(buys[order], 1, -1).astype(np.int64),
-            "qty": self.at("fills", qty, q_s, qs),
-            "price": self.at("fills", price, p_s, ps),
-            "comm": self.at("fills", comm, c_s, ws),
-            "row": order,
-        }
+        scaled = concurrently(
+            {
+                "time": lambda: self.sources["fills"].sorted_ints("time"),
+                "sign": lambda: np.where(buys[order], 1, -1).astype(np.int64),
+                "qty": lambda: self.at("fills", qty, q_s, qs),
+                "price": lambda: self.at("fills", price, p_s, ps),
+                "comm": lambda: self.at("fills", comm, c_s, ws),
+            }
+        )
+        return {**scaled, "row": order}
 
     def _opening(
         self,
