@@ -136,7 +136,7 @@ class _Checker:
             blank = pc.is_null(values)
             shown = values  # shown as text only for the rows a problem names
         else:
-            shown = pc.utf8_trim_whitespace(self.raw_text(column))
+            shown = trimmed(self.raw_text(column))
             blank = pc.fill_null(pc.equal(shown, ""), True)
             values = self._parse_decimal_text(column, shown, expected)
         if default is not None:
@@ -204,7 +204,7 @@ class _Checker:
         if pd.api.types.is_datetime64_dtype(series.dtype):
             text = pa.array(series.dt.strftime("%Y-%m-%dT%H:%M:%S.%f").tolist(), pa.string())
         else:
-            text = pc.fill_null(pc.utf8_trim_whitespace(self.raw_text(column)), "")
+            text = pc.fill_null(trimmed(self.raw_text(column)), "")
             parsed = vectorised.iso_times(text)
             if parsed is not None:
                 return pd.Series(parsed.to_pandas(), dtype=TIME_DTYPE)
@@ -375,12 +375,19 @@ class _Checker:
 
 def clean_text(raw: pa.Array) -> pa.Array:
     """Text values as canon reads them: trimmed, blank for null, a writer's apostrophe undone."""
-    values = pc.fill_null(pc.utf8_trim_whitespace(raw), "")
+    values = pc.fill_null(trimmed(raw), "")
     # Undo the apostrophe our CSV writer puts before a would-be spreadsheet formula (the regex
     # only where some value starts with one: most columns have none).
     if pc.any(pc.starts_with(values, "'")).as_py():
         values = pc.replace_substring_regex(values, r"^'([=+\-@\t\r])", r"\1")
     return values
+
+
+def trimmed(raw: pa.Array) -> pa.Array:
+    """Text without leading or trailing whitespace; no copy when a scan shows there is none."""
+    from reconcile.fast.text import surely_unpadded  # compiled when numba is installed
+
+    return raw if surely_unpadded(raw) else pc.utf8_trim_whitespace(raw)
 
 
 def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[int]]:

@@ -69,7 +69,7 @@ def iso_times(text: pa.Array) -> pa.Array | None:
 
 def repeated(values: pa.Array) -> np.ndarray:
     """Rows whose value occurs more than once in the column."""
-    from reconcile.fast.hashing import all_distinct  # compiled when numba is installed
+    from reconcile.fast.text import all_distinct  # compiled when numba is installed
 
     if all_distinct(values) or len(pc.unique(values)) == len(
         values

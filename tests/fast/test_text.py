@@ -1,14 +1,15 @@
-"""The hashed distinctness check against Python's own set of the values."""
+"""The compiled text scans against Python's own view of the values (set, strip) and FNV-1a."""
 
 from __future__ import annotations
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from reconcile.fast import hashing
+from reconcile.fast import text
 from reconcile.fast._jit import numba_available
 
 TEXT = st.lists(st.text(max_size=6), max_size=40)
@@ -20,7 +21,7 @@ def test_values_shown_distinct_are_distinct_and_repeats_are_never_shown_distinct
 ) -> None:
     column = pa.array(values, pa.large_string() if large else pa.string()).slice(start)
     kept = values[start:]
-    shown = hashing.all_distinct(column)
+    shown = text.all_distinct(column)
     if len(set(kept)) < len(kept):
         assert not shown
     elif numba_available():
@@ -49,9 +50,28 @@ def test_the_compiled_hash_is_fnv1a(values: list[str]) -> None:
     data_buffer = column.buffers()[2]
     data = np.zeros(0, np.uint8) if data_buffer is None else np.frombuffer(data_buffer, np.uint8)
     compiled = np.empty(len(values), np.uint64)
-    hashing._hash_strings(offsets, data, compiled)
+    text._hash_strings(offsets, data, compiled)
     assert compiled.tolist() == [fnv1a_64(v.encode()) for v in values]
 
 
 def test_a_column_with_nulls_is_left_to_the_exact_check() -> None:
-    assert not hashing.all_distinct(pa.array(["a", None]))
+    assert not text.all_distinct(pa.array(["a", None]))
+
+
+EDGES = st.text(alphabet=st.sampled_from([" ", "\t", "\u00a0", "\u3000", "a", "Z", "7", "é", "-"]))
+
+
+@given(values=st.lists(EDGES, max_size=20))
+def test_a_column_shown_unpadded_has_nothing_to_trim(values: list[str]) -> None:
+    column = pa.array(values, pa.string())
+    if text.surely_unpadded(column):
+        assert all(v == v.strip() for v in values)
+        assert pc.utf8_trim_whitespace(column).to_pylist() == values
+
+
+@pytest.mark.skipif(not numba_available(), reason="the scan runs compiled only")
+def test_plain_ascii_ids_are_shown_unpadded_and_padded_ones_are_not() -> None:
+    assert text.surely_unpadded(pa.array(["LK1", "ACC-9", "", "x y"]))
+    assert not text.surely_unpadded(pa.array(["LK1", " LK2"]))
+    assert not text.surely_unpadded(pa.array(["LK1\t"]).slice(0))
+    assert not text.surely_unpadded(pa.array(["LK1\u00a0"]))
