@@ -6,9 +6,11 @@ share a hash) proves nothing, and the caller then asks Arrow's exact hash table.
 sorting integers is several times faster than Arrow's table of every string for millions of ids.
 
 :func:`surely_unpadded` proves that no value starts or ends with whitespace, so trimming would
-copy the column for nothing. Each answer is one way: "not shown" sends the caller to the exact
-step, never to a wrong result. Both run only compiled; as plain Python they would be slower
-than the steps they save.
+copy the column for nothing; :func:`byte_everywhere` checks one byte of every value (the colon of
+an ISO time's minutes) without slicing out a column of one-character strings.
+
+Each answer is one way: "not shown" sends the caller to the exact step, never to a wrong result.
+The scans run only compiled; as plain Python they would be slower than the steps they save.
 """
 
 from __future__ import annotations
@@ -44,6 +46,14 @@ def surely_unpadded(values: pa.Array) -> bool:
     return layout is not None and not _any_edge_suspect(*layout)
 
 
+def byte_everywhere(values: pa.Array, index: int, byte: str) -> bool | None:
+    """Whether every value has ``byte`` at byte ``index``; None when the scan does not apply."""
+    layout = _layout(values)
+    if layout is None:
+        return None
+    return bool(_all_have_byte_at(*layout, index, ord(byte)))
+
+
 def _layout(values: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
     """The offsets and bytes of a string column, or None when the scans do not apply."""
     text = pa.types.is_string(values.type) or pa.types.is_large_string(values.type)
@@ -66,6 +76,15 @@ def _any_edge_suspect(offsets: Any, data: Any) -> Any:
         ):
             return True
     return False
+
+
+@jit
+def _all_have_byte_at(offsets: Any, data: Any, index: Any, byte: Any) -> Any:
+    for i in range(len(offsets) - 1):
+        at = offsets[i] + index
+        if at >= offsets[i + 1] or data[at] != byte:
+            return False
+    return True
 
 
 @jit

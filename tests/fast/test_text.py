@@ -75,3 +75,15 @@ def test_plain_ascii_ids_are_shown_unpadded_and_padded_ones_are_not() -> None:
     assert not text.surely_unpadded(pa.array(["LK1", " LK2"]))
     assert not text.surely_unpadded(pa.array(["LK1\t"]).slice(0))
     assert not text.surely_unpadded(pa.array(["LK1\u00a0"]))
+
+
+TIMES = st.sampled_from(["2026-11-02T10:00Z", "2026-11-02T10Z", "2026-11-02", "", "x" * 14])
+
+
+@given(values=st.lists(TIMES))
+def test_the_byte_scan_agrees_with_the_character_slice_on_ascii_time_text(
+    values: list[str],
+) -> None:
+    found = text.byte_everywhere(pa.array(values, pa.string()), 13, ":")
+    if found is not None:  # compiled
+        assert found == all(v[13:14] == ":" for v in values)
