@@ -24,7 +24,14 @@ import pyarrow.compute as pc
 from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
 from reconcile.fast._jit import numba_available
-from reconcile.fast.scaled import POW10, checked_mul, ints_of, rescale, significant_places, unscaled
+from reconcile.fast.scaled import (
+    POW10,
+    checked_mul,
+    ints_of,
+    rescale,
+    significant_places,
+    unscaled_in_order,
+)
 from reconcile.money import minor_unit
 
 
@@ -259,10 +266,11 @@ class _Scales:
 
     def column(self, source: str, name: str) -> tuple[np.ndarray, int]:
         """A decimal column in sorted order, as integers at the column's scale."""
-        ints, scale, fits = unscaled(self.sources[source].columns[name])
-        order = self.sources[source].order
+        ints, scale, fits = unscaled_in_order(
+            self.sources[source].columns[name], self.sources[source].order
+        )
         self.flag(self.sources[source].keys[~fits])
-        return ints[order], scale
+        return ints, scale
 
     def flag(self, keys: np.ndarray) -> None:
         self.status[keys] = kernel.OVERFLOW

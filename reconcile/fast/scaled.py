@@ -49,6 +49,33 @@ def unscaled(values: pa.Array | pa.ChunkedArray) -> tuple[np.ndarray, int, np.nd
     return ints, values.type.scale, fits
 
 
+def unscaled_in_order(
+    values: pa.Array | pa.ChunkedArray, order: np.ndarray
+) -> tuple[np.ndarray, int, np.ndarray]:
+    """:func:`unscaled` with the integers taken in ``order`` (``fits`` stays in input order):
+    one compiled pass over the words when numba is there."""
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks() if values.num_chunks != 1 else values.chunk(0)
+    if not numba_available() or not pa.types.is_decimal128(values.type) or values.null_count:
+        ints, scale, fits = unscaled(values)
+        return ints[order], scale, fits
+    words = np.frombuffer(values.buffers()[1], dtype=np.int64)
+    words = words[2 * values.offset : 2 * (values.offset + len(values))].reshape(-1, 2)
+    out, fits = np.empty(len(order), np.int64), np.empty(len(values), bool)
+    _unscale_in_order(words, np.ascontiguousarray(order, np.int64), out, fits)
+    return out, values.type.scale, fits
+
+
+@jit
+def _unscale_in_order(words: Any, order: Any, out: Any, fits: Any) -> None:
+    for i in range(len(words)):
+        low, high = words[i, 0], words[i, 1]
+        fits[i] = high == (low >> 63) and -INPUT_LIMIT < low < INPUT_LIMIT
+    for n in range(len(order)):
+        i = order[n]
+        out[n] = words[i, 0] if fits[i] else 0
+
+
 def significant_places(values: np.ndarray, scale: int) -> np.ndarray:
     """Decimal places each value needs (money.significant_places): 1.500 needs 1, 100 none."""
     places = np.full(len(values), scale, dtype=np.int64)

@@ -13,6 +13,7 @@ from decimal import Decimal
 from unittest.mock import patch
 
 import numpy as np
+import pyarrow as pa
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -149,3 +150,19 @@ def test_decimal_columns_hold_each_integer_at_its_own_scale(
             column = scaled.to_decimal(values, scales, valid)
         assert column.to_pylist() == expected
         assert (column.type.precision, column.type.scale) == (max(whole, 1) + scale, scale)
+
+
+@given(
+    values=st.lists(st.integers(-(10**30), 10**30) | SMALL, min_size=1, max_size=30),
+    seed=st.integers(0, 2**32 - 1),
+)
+def test_unscaling_in_key_order_is_unscaling_then_taking(values: list[int], seed: int) -> None:
+    column = pa.array([Decimal(v).scaleb(-4) for v in values], pa.decimal128(38, 4))
+    order = np.random.default_rng(seed).permutation(len(values))
+    ints, scale, fits = scaled.unscaled_in_order(column, order)
+    assert scale == 4
+    for n, i in enumerate(order):
+        # Python's own integers: a value fits when it lies strictly inside +-2**62.
+        inside = abs(values[i]) < 2**62
+        assert bool(fits[i]) == inside
+        assert int(ints[n]) == (values[i] if inside else 0)
