@@ -385,9 +385,8 @@ def clean_text(raw: pa.Array) -> pa.Array:
 
 def trimmed(raw: pa.Array) -> pa.Array:
     """Text without leading or trailing whitespace; no copy when a scan shows there is none."""
-    from reconcile.fast.text import surely_unpadded  # compiled when numba is installed
-
-    return raw if surely_unpadded(raw) else pc.utf8_trim_whitespace(raw)
+    scans = vectorised.compiled_scans(raw)
+    return raw if scans is not None and scans.surely_unpadded(raw) else pc.utf8_trim_whitespace(raw)
 
 
 def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[int]]:

@@ -8,6 +8,7 @@ one that words every problem. A shortcut never accepts a value canon's own rules
 from __future__ import annotations
 
 from decimal import Decimal
+from types import ModuleType
 
 import numpy as np
 import pandas as pd
@@ -56,12 +57,11 @@ def iso_times(text: pa.Array) -> pa.Array | None:
     Arrow's parser takes a subset of canon's forms, except an hour without minutes
     (``2026-11-02T10Z``), which canon refuses: every value must have its minutes.
     """
-    from reconcile.fast.text import byte_everywhere  # compiled when numba is installed
-
     if len(text) == 0 or text.null_count:
         return None
     # Arrow's parser takes only ASCII, so a byte check stands for the character check here.
-    minutes = byte_everywhere(text, 13, ":")
+    scans = compiled_scans(text)
+    minutes = None if scans is None else scans.byte_everywhere(text, 13, ":")
     if minutes is None:
         minutes = pc.all(pc.equal(pc.utf8_slice_codeunits(text, 13, 14), ":")).as_py()
     if not minutes:
@@ -72,13 +72,24 @@ def iso_times(text: pa.Array) -> pa.Array | None:
         return None
 
 
+#: Columns shorter than this skip the compiled scans: loading numba would cost more than they save.
+COMPILED_SCAN_ROWS = 50_000
+
+
+def compiled_scans(values: pa.Array) -> ModuleType | None:
+    """:mod:`reconcile.fast.text` for a column long enough to pay for loading it, else None."""
+    if len(values) < COMPILED_SCAN_ROWS:
+        return None
+    from reconcile.fast import text
+
+    return text
+
+
 def repeated(values: pa.Array) -> np.ndarray:
     """Rows whose value occurs more than once in the column."""
-    from reconcile.fast.text import all_distinct  # compiled when numba is installed
-
-    if all_distinct(values) or len(pc.unique(values)) == len(
-        values
-    ):  # the usual case (unique ids), found by one hash
+    scans = compiled_scans(values)
+    shown = scans is not None and scans.all_distinct(values)
+    if shown or len(pc.unique(values)) == len(values):  # the usual case: unique ids
         return np.zeros(len(values), bool)
     codes = _codes(values)
     counts = np.bincount(codes) if len(codes) else np.zeros(0, np.int64)

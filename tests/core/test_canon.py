@@ -227,3 +227,23 @@ def test_a_lower_case_z_is_utc() -> None:
     # RFC 3339 section 5.6 notes that "T" and "Z" may be written lower case (quoted from memory).
     frame = canonical_fills(_with("time", "2026-11-02T10:00:00z", row=0))
     assert str(frame["time"].iloc[0]) == "2026-11-02 10:00:00+00:00"
+
+
+def test_a_long_file_is_checked_as_strictly_as_a_short_one() -> None:
+    """Past the size where the compiled scans take over, the same values are refused or fixed:
+    a padded account is trimmed, an hour without minutes and a repeated fill id are reported."""
+    from reconcile.core.vectorised import COMPILED_SCAN_ROWS
+
+    rows = [
+        (f"f{n}", "buy", 1, "100", f"2026-11-02T14:{n % 60:02d}:00Z", "0")
+        for n in range(COMPILED_SCAN_ROWS + 10)
+    ]
+    frame = fills(rows)
+    frame.loc[5, "account"] = "  " + str(frame.loc[5, "account"]) + "\t"
+    clean = canonical_fills(frame)
+    assert clean.loc[5, "account"] == clean.loc[6, "account"]
+    frame.loc[7, "time"] = "2026-11-02T14Z"
+    frame.loc[9, "fill_id"] = "f8"
+    problems = _problems(frame)
+    assert any("row 9" in p and "time" in p for p in problems)
+    assert any("row 10" in p and "fill_id" in p for p in problems)
