@@ -20,10 +20,8 @@ from typing import Any
 
 import numpy as np
 
-from reconcile.fast._jit import inline, jit
+from reconcile.fast._jit import add_overflows, inline, jit, mul_overflows
 
-LIMIT = 9223372036854775807  # 2**63 - 1; values are kept within +-LIMIT, never at -2**63
-SMALL = 3037000499  # floor(sqrt(LIMIT)): the product of two smaller magnitudes always fits
 POW10 = np.array([10**k for k in range(19)], dtype=np.int64)
 
 FIFO, LIFO, HIFO, AVERAGE = 0, 1, 2, 3
@@ -41,21 +39,19 @@ def _mul(a: Any, b: Any, bad: Any) -> Any:
 
     Every checked step takes and returns the key's overflow flag, a plain local of the caller
     (an array flag would be a reference-counted object passed to every step)."""
-    if -SMALL <= a <= SMALL and -SMALL <= b <= SMALL:
-        return a * b, bad
-    if a == 0 or b == 0:
-        return 0, bad
-    if abs(a) > LIMIT // abs(b):
+    product, overflow = mul_overflows(a, b)
+    if overflow:
         return 0, True
-    return a * b, bad
+    return product, bad
 
 
 @inline
 def _add(a: Any, b: Any, bad: Any) -> Any:
     """``(a + b, bad)``, or ``(0, True)`` when the sum leaves the int64 range."""
-    if (b > 0 and a > LIMIT - b) or (b < 0 and a < -LIMIT - b):
+    total, overflow = add_overflows(a, b)
+    if overflow:
         return 0, True
-    return a + b, bad
+    return total, bad
 
 
 @inline
