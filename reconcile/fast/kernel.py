@@ -130,6 +130,14 @@ def _one_share(amount: Any, count: Any, out: Any) -> None:
 
 
 @jit
+def _to_largest_remainders(left: Any, count: Any, out: Any, rem: Any) -> None:
+    """One unit more to each of the ``left`` largest remainders, by a stable sort (many units)."""
+    order = np.argsort(-rem[:count], kind="mergesort")
+    for n in range(left):
+        out[order[n]] += 1
+
+
+@jit
 def _allocate(
     amount: Any, weights: Any, count: Any, scale: Any, minor: Any, out: Any, rem: Any, bad: Any
 ) -> Any:
@@ -173,50 +181,56 @@ def _allocate(
                 out[best] += 1
                 rem[best] = -1
         else:
-            order = np.argsort(-rem[:count], kind="mergesort")
-            for n in range(left):
-                out[order[n]] += 1
+            _to_largest_remainders(left, count, out, rem)
     for i in range(count):
         out[i], bad = _mul(sign * out[i], factor, bad)
     return bad
 
 
 @inline
-def _hifo_before(price: Any, seq: Any, a: Any, b: Any, direction: Any) -> Any:
-    """Whether lot ``a`` closes before lot ``b`` under hifo: the least gain first, ties oldest."""
-    pa_, pb = direction * price[a], direction * price[b]
-    return pa_ > pb or (pa_ == pb and seq[a] < seq[b])
+def _hifo_before(price_a: Any, seq_a: Any, price_b: Any, seq_b: Any, direction: Any) -> Any:
+    """Whether lot a closes before lot b under hifo: the least gain first, ties oldest.
+
+    Takes the lots' values, not the arrays: an inlined helper taking arrays would update their
+    reference counts at every comparison."""
+    pa_, pb = direction * price_a, direction * price_b
+    return pa_ > pb or (pa_ == pb and seq_a < seq_b)
 
 
 @jit
 def _heap_push(heap: Any, size: Any, slot: Any, price: Any, seq: Any, direction: Any) -> Any:
+    """Add ``slot`` to the binary heap ``heap[:size]``; returns the new size."""
     i = size
-    heap[i] = slot
-    while i > 0:
+    parent = (i - 1) // 2
+    while i > 0 and _hifo_before(
+        price[slot], seq[slot], price[heap[parent]], seq[heap[parent]], direction
+    ):
+        heap[i] = heap[parent]
+        i = parent
         parent = (i - 1) // 2
-        if _hifo_before(price, seq, heap[i], heap[parent], direction):
-            heap[i], heap[parent] = heap[parent], heap[i]
-            i = parent
-        else:
-            break
+    heap[i] = slot
     return size + 1
 
 
 @jit
 def _heap_pop(heap: Any, size: Any, price: Any, seq: Any, direction: Any) -> Any:
+    """Drop the first lot of the heap ``heap[:size]``; returns the new size."""
     size -= 1
-    heap[0] = heap[size]
-    i = 0
-    while True:
-        left, right, best = 2 * i + 1, 2 * i + 2, i
-        if left < size and _hifo_before(price, seq, heap[left], heap[best], direction):
-            best = left
-        if right < size and _hifo_before(price, seq, heap[right], heap[best], direction):
-            best = right
-        if best == i:
-            return size
-        heap[i], heap[best] = heap[best], heap[i]
-        i = best
+    last = heap[size]
+    i, child = 0, 1
+    moving = True  # a flag, not a break: numba then drops the arrays' reference counting
+    while moving and child < size:
+        first = heap[child]
+        if child + 1 < size:
+            other = heap[child + 1]
+            if _hifo_before(price[other], seq[other], price[first], seq[first], direction):
+                child, first = child + 1, other
+        moving = _hifo_before(price[first], seq[first], price[last], seq[last], direction)
+        if moving:
+            heap[i] = first
+            i, child = child, 2 * child + 1
+    heap[i] = last
+    return size
 
 
 @jit
