@@ -8,10 +8,13 @@ same order: the largest-remainder split of a fill's commission over [closed piec
 remainder], the remaining-balance share of a lot's charges on a partial close, the average basis
 relieved in minor units, financing before fills at equal times, totals rounded once.
 
-Every product and sum is checked against the int64 range. A key whose numbers do not fit is left
-out of the output (its rows are rolled back) and flagged, so the caller replays it with the
-reference engine: the kernel never wraps. The functions run compiled by numba when it is installed
-and as plain Python otherwise; both give the same integers.
+Every product and sum is checked against the int64 range (compiled, by the CPU's overflow flag:
+:func:`reconcile.fast._jit.mul_overflows`). The flag is a plain local that each step takes and
+returns, and no helper called at every fill takes an array, so numba updates no reference counts
+in the loop. A key whose numbers do not fit is left out of the output (its rows are rolled back)
+and flagged, so the caller replays it with the reference engine: the kernel never wraps. The
+functions run compiled by numba when it is installed and as plain Python otherwise; both give the
+same integers.
 """
 
 from __future__ import annotations
@@ -127,6 +130,32 @@ def _one_share(amount: Any, count: Any, out: Any) -> None:
     out[0] = amount
     for i in range(1, count):
         out[i] = 0
+
+
+@inline
+def _split_in_two(amount: Any, first: Any, second: Any, scale: Any, minor: Any, bad: Any) -> Any:
+    """:func:`_allocate` over two weights, on values rather than arrays: ``(share of the first,
+    share of the second, flag)``. The common split (a piece closed and the rest opened, or two
+    pieces), without the call and the arrays' reference counting."""
+    places, bad = _charge_places(amount, scale, minor, bad)
+    factor, bad = _pow10(scale - places, bad)
+    units = abs(amount) // factor
+    total, bad = _add(first, second, bad)
+    if total <= 0:
+        return 0, 0, True
+    quota_first, bad = _mul(units, first, bad)
+    quota_second, bad = _mul(units, second, bad)
+    floor_first, floor_second = quota_first // total, quota_second // total
+    # At most one unit is left; it goes to the larger remainder, a tie to the first.
+    if floor_first + floor_second < units:
+        if quota_first - floor_first * total >= quota_second - floor_second * total:
+            floor_first += 1
+        else:
+            floor_second += 1
+    sign = -1 if amount < 0 else 1
+    share_first, bad = _mul(sign * floor_first, factor, bad)
+    share_second, bad = _mul(sign * floor_second, factor, bad)
+    return share_first, share_second, bad
 
 
 @jit
@@ -279,7 +308,7 @@ def replay_keys(
 
     ``k_fill``/``k_fin``/``k_open`` hold per-key offsets (K + 1 entries) into the sorted fills,
     financing and opening lots. Output rows go into the preallocated 2-D integer arrays (columns
-    named in :mod:`reconcile.fast.layout`); ``counts`` receives the row count of each table.
+    as :mod:`reconcile.fast.tables` reads them); ``counts`` receives the row count of each table.
     ``k_status`` is OK or OVERFLOW per key on the way in (keys already known not to fit are
     skipped) and on the way out.
     """
@@ -413,6 +442,10 @@ def replay_keys(
                 weights += 1
             if weights == 1 or commission == 0:
                 _one_share(commission, weights, shares)
+            elif weights == 2:
+                shares[0], shares[1], bad = _split_in_two(
+                    commission, takes[0], takes[1], ws, minor, bad
+                )
             else:
                 bad = _allocate(commission, takes, weights, ws, minor, shares, rem, bad)
             paid, bad = _add(paid, commission, bad)

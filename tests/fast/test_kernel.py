@@ -6,6 +6,7 @@ The kernel runs compiled (when numba is installed) and as plain Python; both for
 
 from __future__ import annotations
 
+from decimal import Decimal
 from typing import Any
 
 import numpy as np
@@ -17,6 +18,7 @@ import reconcile
 from reconcile.core.canon import canonical_fills
 from reconcile.fast import engine, kernel
 from reconcile.fast.prepare import prepare
+from reconcile.money import allocate, significant_places
 from tests.builders import concat, fills
 from tests.fast.test_equality import assert_same_book
 
@@ -44,6 +46,31 @@ def test_checked_steps_flag_exactly_the_results_past_int64(a: int, b: int, alrea
             assert (int(total), bool(bad)) == (0, True)
         else:
             assert (int(total), bool(bad)) == (a + b, already)
+
+
+@given(
+    amount=st.integers(-(10**12), 10**12),
+    first=st.integers(0, 10**9),
+    second=st.integers(0, 10**9),
+    scale=st.integers(0, 8),
+    minor=st.integers(0, 3),
+)
+def test_a_split_in_two_gives_money_allocate_shares(
+    amount: int, first: int, second: int, scale: int, minor: int
+) -> None:
+    # derived: money.allocate (exact fractions) is the definition of the split.
+    minor = min(minor, scale)
+    if first + second == 0:
+        return
+    value = Decimal(amount).scaleb(-scale)
+    places = max(minor, significant_places(value))
+    expected = [
+        int(s.scaleb(scale)) for s in allocate(value, [Decimal(first), Decimal(second)], places)
+    ]
+    for split in _both_forms(kernel._split_in_two):
+        one, two, bad = split(amount, first, second, scale, minor, False)
+        assert ([int(one), int(two)], bool(bad)) == (expected, False)
+        assert int(one) + int(two) == amount
 
 
 # derived: 3037000499**2 = 9223372030926249001 fits under 2**63 - 1; 3037000500**2 =
