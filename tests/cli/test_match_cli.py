@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import shutil
 from pathlib import Path
 
@@ -140,6 +141,19 @@ def test_python_dash_m_runs_the_same_app() -> None:
         [sys.executable, "-m", "reconcile", "--version"], capture_output=True, text=True, check=True
     )
     assert result.stdout.startswith("reconcile ")
+
+
+def test_the_command_asks_for_huge_pages_unless_the_user_chose(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    from reconcile.cli import tune_allocator
+
+    monkeypatch.delenv("MIMALLOC_ALLOW_LARGE_OS_PAGES", raising=False)
+    tune_allocator()
+    assert os.environ["MIMALLOC_ALLOW_LARGE_OS_PAGES"] == "1"
+    monkeypatch.setenv("MIMALLOC_ALLOW_LARGE_OS_PAGES", "0")
+    tune_allocator()
+    assert os.environ["MIMALLOC_ALLOW_LARGE_OS_PAGES"] == "0"
 
 
 def test_help_lists_the_commands() -> None:
