@@ -16,8 +16,8 @@ __all__ = ["app", "main"]
 
 #: Set for the command's own process before pyarrow loads (a user's own setting wins). Arrow's
 #: allocator then asks the kernel for transparent huge pages: a large run touches gigabytes of
-#: fresh memory, and faulting it in 4 KiB pages cost a 10-million-fill match about a third of its
-#: time (benchmarks/run.py; DEVELOPERS.md, "Speed").
+#: fresh memory, and faulting it in 4 KiB pages is a large share of a 10-million-fill match's
+#: time on a virtual machine (DEVELOPERS.md, under "Checks", has the figures).
 ALLOCATOR_SETTINGS = {"MIMALLOC_ALLOW_LARGE_OS_PAGES": "1"}
 
 
