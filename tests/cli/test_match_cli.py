@@ -148,7 +148,8 @@ def test_the_command_asks_for_huge_pages_unless_the_user_chose(
 ) -> None:
     from reconcile.cli import tune_allocator
 
-    monkeypatch.delenv("MIMALLOC_ALLOW_LARGE_OS_PAGES", raising=False)
+    monkeypatch.setenv("MIMALLOC_ALLOW_LARGE_OS_PAGES", "")  # so the teardown restores it
+    monkeypatch.delenv("MIMALLOC_ALLOW_LARGE_OS_PAGES")
     tune_allocator()
     assert os.environ["MIMALLOC_ALLOW_LARGE_OS_PAGES"] == "1"
     monkeypatch.setenv("MIMALLOC_ALLOW_LARGE_OS_PAGES", "0")
