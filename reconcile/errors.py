@@ -7,7 +7,8 @@
     │   ├── SourceNotFoundError         a named file does not exist or is not a file
     │   ├── SourceEmptyError            a file has no header row at all
     │   ├── MissingColumnsError         required columns are absent
-    │   └── ValidationError        rows with bad values: .problems lists each one
+    │   ├── ValidationError        rows with bad values: .problems lists each one
+    │   └── PrecisionError              a column's values need more than 76 digits at one scale
     ├── ConfigError                exit 2: an option, profile, schedule or config is invalid
     │   └── ScheduleError               a fee schedule's values: .problems names file and key path
     └── OutputError                exit 2: results could not be written (none left half-written)
@@ -96,6 +97,14 @@ class ValidationError(InputError):
     def __init__(self, source: str, problems: Sequence[Problem]) -> None:
         self.source = source
         super().__init__(problem_listing(source, problems), problems)
+
+
+class PrecisionError(InputError):
+    """A column's values cannot share one exact decimal type.
+
+    An exact column holds at most 76 digits at one scale, so a value with 26 digits before the point
+    cannot sit beside one with 51 places after it. Rounding either would lose money silently.
+    """
 
 
 class ConfigError(ReconcileError):

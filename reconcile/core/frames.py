@@ -10,28 +10,41 @@ import pandas as pd
 import pyarrow as pa
 
 from reconcile import schema
+from reconcile.errors import PrecisionError
 from reconcile.money import places_of
 
+#: The most digits an exact decimal column holds (Arrow's decimal256).
+MAX_DECIMAL_DIGITS = 76
 
-def decimal_array(values: Sequence[Decimal | None]) -> pa.Array:
+
+def decimal_array(values: Sequence[Decimal | None], column: str = "decimal") -> pa.Array:
     """An Arrow decimal array wide enough for every value, at the largest scale among them."""
     present = [v for v in values if v is not None]
     scale = max((places_of(v) for v in present), default=0)
     return pa.array(
         # A zero can come out of the arithmetic signed (0 x -1); it is written unsigned.
         [v.copy_abs() if v is not None and v == 0 else v for v in values],
-        type=tight_decimal_type(present, scale),
+        type=tight_decimal_type(present, scale, column),
     )
 
 
-def tight_decimal_type(values: Sequence[Decimal], scale: int) -> pa.DataType:
+def tight_decimal_type(
+    values: Sequence[Decimal], scale: int, column: str = "decimal"
+) -> pa.DataType:
     """The narrowest decimal type holding ``values`` at ``scale``.
 
     Narrow types matter: Arrow widens precision on every multiplication, so a column typed at the
-    maximum precision could not even be multiplied by another.
+    maximum precision could not even be multiplied by another. Raises :class:`PrecisionError`
+    when no exact column can hold them all (a huge value beside one with many decimal places).
     """
     int_digits = max((v.adjusted() + 1 for v in values if v != 0), default=1)
     precision = max(int_digits, 1) + scale
+    if precision > MAX_DECIMAL_DIGITS:
+        raise PrecisionError(
+            f"column {column}: expected values that fit {MAX_DECIMAL_DIGITS} digits at one scale, "
+            f"found {max(int_digits, 1)} digits before the point and {scale} after "
+            f"({precision} in all)"
+        )
     return pa.decimal128(precision, scale) if precision <= 38 else pa.decimal256(precision, scale)
 
 
@@ -45,7 +58,7 @@ def build_frame(rows: Sequence[dict[str, Any]], columns: Sequence[str]) -> pd.Da
 
 def _array(name: str, values: list[Any]) -> pa.Array:
     if name in schema.DECIMAL_COLUMNS or name in schema.TIEOUT_DECIMAL_COLUMNS:
-        return decimal_array(values)
+        return decimal_array(values, name)
     if name in schema.TIME_COLUMNS or name in schema.TIEOUT_TIME_COLUMNS:
         return pa.array(values, pa.timestamp("ns", tz="UTC"))
     if name in schema.DURATION_COLUMNS:

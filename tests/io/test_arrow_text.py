@@ -12,13 +12,15 @@ from decimal import Decimal
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from reconcile.core.frames import decimal_array
+from reconcile.core.frames import MAX_DECIMAL_DIGITS, decimal_array
+from reconcile.errors import PrecisionError
 from reconcile.io.writers import arrow_text
 from reconcile.io.writers.tables import _one_decimal, decimal_text, text_table
-from reconcile.money import minor_unit
+from reconcile.money import minor_unit, places_of
 
 CODES = ["USD", "JPY", "BHD", "CLF"]
 NS_RANGE = st.integers(-(2**62), 2**62)
@@ -44,10 +46,36 @@ def test_decimal_column_text_equals_decimal_text(rows: list[tuple[Decimal | None
     values = [v for v, _ in rows]
     if any(v is not None and len(v.as_tuple().digits) > 30 for v in values):
         return
+    if not _fits_one_column(values):
+        return  # test_values_too_wide_for_one_column covers these
     array = decimal_array(values)
     places = np.array([minor_unit(c) or 0 for _, c in rows], dtype=np.int64)
     got = arrow_text.decimal_texts(array, places, _one_decimal).to_pylist()
     assert got == [decimal_text(v, c) for v, c in rows]
+
+
+def _fits_one_column(values: list[Decimal | None]) -> bool:
+    present = [v for v in values if v is not None]
+    before = max((v.adjusted() + 1 for v in present if v != 0), default=1)
+    after = max((places_of(v) for v in present), default=0)
+    return max(before, 1) + after <= MAX_DECIMAL_DIGITS
+
+
+def test_values_too_wide_for_one_column() -> None:
+    # Found by hypothesis: 26 digits before the point beside 51 after need 77 digits, one more
+    # than Arrow's widest decimal (decimal256: precision 1 to 76, pyarrow documentation).
+    values = [Decimal("10000000000000000000000000"), Decimal("9.9999999999999999999999990E-26")]
+    with pytest.raises(PrecisionError) as caught:
+        decimal_array(values, "realized_pnl")
+    assert str(caught.value) == (
+        "column realized_pnl: expected values that fit 76 digits at one scale, "
+        "found 26 digits before the point and 51 after (77 in all)"
+    )
+
+
+def test_values_exactly_as_wide_as_one_column() -> None:
+    values = [Decimal("1" * 25), Decimal("0." + "0" * 50 + "1")]  # 25 + 51 = 76 digits
+    assert decimal_array(values).type == pa.decimal256(76, 51)
 
 
 def test_tiny_values_that_arrow_writes_with_an_exponent() -> None:
