@@ -133,6 +133,16 @@ def _one_share(amount: Any, count: Any, out: Any) -> None:
 
 
 @inline
+def _share_of(units: Any, weight: Any, total: Any, bad: Any) -> Any:
+    """``divmod(units * weight, total)`` for ``0 <= weight <= total``, without forming the
+    product: with ``units = q * total + r`` it is ``q * weight`` (at most ``units``) plus
+    ``divmod(r * weight, total)``, which overflows only when ``total`` passes about 3e9."""
+    whole, part = units // total, units % total
+    product, bad = _mul(part, weight, bad)
+    return whole * weight + product // total, product % total, bad
+
+
+@inline
 def _split_in_two(amount: Any, first: Any, second: Any, scale: Any, minor: Any, bad: Any) -> Any:
     """:func:`_allocate` over two weights, on values rather than arrays: ``(share of the first,
     share of the second, flag)``. The common split (a piece closed and the rest opened, or two
@@ -143,12 +153,11 @@ def _split_in_two(amount: Any, first: Any, second: Any, scale: Any, minor: Any, 
     total, bad = _add(first, second, bad)
     if total <= 0:
         return 0, 0, True
-    quota_first, bad = _mul(units, first, bad)
-    quota_second, bad = _mul(units, second, bad)
-    floor_first, floor_second = quota_first // total, quota_second // total
+    floor_first, rem_first, bad = _share_of(units, first, total, bad)
+    floor_second, rem_second, bad = _share_of(units, second, total, bad)
     # At most one unit is left; it goes to the larger remainder, a tie to the first.
     if floor_first + floor_second < units:
-        if quota_first - floor_first * total >= quota_second - floor_second * total:
+        if rem_first >= rem_second:
             floor_first += 1
         else:
             floor_second += 1
@@ -195,10 +204,8 @@ def _allocate(
             out[i] = 0
             rem[i] = 0
             continue
-        num, bad = _mul(units, weights[i], bad)
-        floor = num // total
+        floor, rem[i], bad = _share_of(units, weights[i], total, bad)
         out[i] = floor
-        rem[i] = num - floor * total
         left -= floor
     if left > 0:
         if left * count <= 4096:

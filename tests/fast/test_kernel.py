@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 import pytest
-from hypothesis import given
+from hypothesis import example, given
 from hypothesis import strategies as st
 
 import reconcile
@@ -48,6 +48,8 @@ def test_checked_steps_flag_exactly_the_results_past_int64(a: int, b: int, alrea
             assert (int(total), bool(bad)) == (a + b, already)
 
 
+@example(amount=995_027_511_698, first=0, second=999_999_994, scale=0, minor=0)  # found by it
+@example(amount=10**12, first=5 * 10**8, second=5 * 10**8 - 1, scale=0, minor=0)  # 5e20 > 2**63
 @given(
     amount=st.integers(-(10**12), 10**12),
     first=st.integers(0, 10**9),
