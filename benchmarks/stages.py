@@ -67,10 +67,8 @@ def main() -> None:
         _timed(module, name)
     _timed(canon, "canonical_fills")
     sources._CANON["fills"] = canon.canonical_fills
-    with stage("read and validate"):
-        inputs = session.read_inputs(path)
-    with stage("match"):
-        book = session.match_inputs(inputs)
+    with stage("read, validate and match"):
+        book, inputs = session.read_and_match(lambda: session.read_inputs(path))
     with tempfile.TemporaryDirectory() as out, stage(f"write ({fmt})"):
         session.write_book(book, inputs, Path(out), fmt)
     with stage("summary"):

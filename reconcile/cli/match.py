@@ -81,19 +81,22 @@ def match_command(
             profile=profile,
         )
         return
-    inputs = session.read_inputs(
-        fills,
-        financing,
-        opening,
-        timezone=timezone,
-        dedupe=dedupe,
-        profile=profile,
-        input_format=input_format,
-        keep_rejects=rejects is not None,
-        fix_lenient=fix_lenient,
-    )
-    book = session.match_inputs(
-        inputs, method=method, commission=commission, rounding=rounding, engine=engine
+    book, inputs = session.read_and_match(
+        lambda: session.read_inputs(
+            fills,
+            financing,
+            opening,
+            timezone=timezone,
+            dedupe=dedupe,
+            profile=profile,
+            input_format=input_format,
+            keep_rejects=rejects is not None,
+            fix_lenient=fix_lenient,
+        ),
+        method=method,
+        commission=commission,
+        rounding=rounding,
+        engine=engine,
     )
     written = session.write_book(book, inputs, out, fmt)
     session.finish_rejects(inputs, rejects)

@@ -80,3 +80,13 @@ def frame_from_arrow(table: pa.Table) -> pd.DataFrame:
     """A DataFrame of an Arrow table, with the same column types :func:`build_frame` gives."""
     frame: pd.DataFrame = table.to_pandas(types_mapper=_pandas_type)
     return frame
+
+
+def release_unused_memory() -> None:
+    """Return the memory Arrow has freed to the operating system.
+
+    Arrow's allocator keeps freed pages for its own next use, but NumPy allocates elsewhere: after
+    a large parse, the pages of the text it parsed would otherwise stay resident beside every
+    array the match then builds.
+    """
+    pa.default_memory_pool().release_unused()

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -69,6 +70,29 @@ def match(
     )
 
 
+@dataclass
+class HeldFrames:
+    """The canonical input frames of one match, behind one reference.
+
+    A caller that reads its inputs only to match them (the command line) hands them over with
+    ``releasable=True``: the fast path then lets go of them (:meth:`release`) once it has taken
+    what it needs, so millions of fills are not kept beside the tables built from them.
+    """
+
+    fills: pd.DataFrame
+    financing: pd.DataFrame | None = None
+    opening: pd.DataFrame | None = None
+    releasable: bool = False
+
+    def rows(self) -> int:
+        return sum(len(f) for f in (self.fills, self.financing, self.opening) if f is not None)
+
+    def release(self) -> None:
+        if self.releasable:
+            self.fills = pd.DataFrame(columns=self.fills.columns)
+            self.financing = self.opening = None
+
+
 @exact_arithmetic
 def match_canonical(
     fills: pd.DataFrame,
@@ -83,17 +107,31 @@ def match_canonical(
 ) -> Book:
     """:func:`match` for inputs that are already canonical (what the readers return), so a
     command that has just read and validated its files does not validate them twice."""
+    held = HeldFrames(fills, financing, opening)
+    return match_held(held, method, commission, rounding, progress, engine)
+
+
+@exact_arithmetic
+def match_held(
+    held: HeldFrames,
+    method: schema.Method = "fifo",
+    commission: schema.CommissionConvention = "at-close",
+    rounding: Rounding = "half-even",
+    progress: Progress | None = None,
+    engine: schema.Engine = "auto",
+) -> Book:
+    """:func:`match_canonical` of frames in a :class:`HeldFrames` (which it may release)."""
     check_choice("method", method, schema.METHODS)
     check_choice("commission", commission, schema.COMMISSION_CONVENTIONS)
     check_choice("rounding", rounding, tuple(ROUNDING_MODES))
     check_choice("engine", engine, schema.ENGINES)
-    if opening is not None:
-        check_carried_lots(fills, opening)
-    if _use_fast(engine, sum(len(f) for f in (fills, financing, opening) if f is not None)):
-        book = _fast_book(fills, financing, opening, method, commission, rounding, progress)
+    if held.opening is not None:
+        check_carried_lots(held.fills, held.opening)
+    if _use_fast(engine, held.rows()):
+        book = _fast_book(held, method, commission, rounding, progress)
         if book is not None:
             return book
-    run = replay(fills, financing, opening, method, commission, progress)
+    run = replay(held.fills, held.financing, held.opening, method, commission, progress)
     return build_book(run, method, rounding)
 
 
@@ -151,9 +189,7 @@ def _use_fast(engine: str, rows: int) -> bool:
 
 
 def _fast_book(
-    fills: pd.DataFrame,
-    financing: pd.DataFrame | None,
-    opening: pd.DataFrame | None,
+    held: HeldFrames,
     method: str,
     commission: str,
     rounding: Rounding,
@@ -166,8 +202,17 @@ def _fast_book(
     from reconcile.fast.prepare import NeedsReference
 
     try:
+        # The frames go in as arguments only, never as names here, so that releasing them
+        # inside drops the last reference the match holds.
         book = fast_book(
-            fills, financing, opening, method, commission, rounding, compiled=numba_available()
+            held.fills,
+            held.financing,
+            held.opening,
+            method,
+            commission,
+            rounding,
+            compiled=numba_available(),
+            release=held.release,
         )
     except NeedsReference:
         return None

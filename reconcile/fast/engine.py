@@ -7,12 +7,15 @@ columns, values and row order in every table (decimal columns may be typed at an
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 import pandas as pd
 import pyarrow as pa
 
 from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
+from reconcile.core.frames import release_unused_memory
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
 from reconcile.fast.prepare import Prepared, prepare
@@ -31,8 +34,13 @@ def fast_book(
     rounding: Rounding,
     *,
     compiled: bool = True,
+    release: Callable[[], None] | None = None,
 ) -> Book:
-    """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``."""
+    """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``.
+
+    ``release`` is called once the input frames are no longer needed (before the tables are
+    built), for a caller that can let go of them then.
+    """
     prepared = prepare(fills, financing, opening, method)
     out = run_kernel(prepared, method, convention, compiled=compiled)
     prepared.release_kernel_inputs()
@@ -50,6 +58,11 @@ def fast_book(
             prepared, fallback, fills, financing, opening, method, convention, rounding
         )
         trips[fallback] = _trip_counts(reference, prepared, fallback)
+    del fills, financing, opening
+    if release is not None:
+        release()
+    prepared.release_sources()
+    release_unused_memory()
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
     builder = TableBuilder(prepared, out, derived, offsets)
     good = np.flatnonzero(prepared.key["status"] == kernel.OK)

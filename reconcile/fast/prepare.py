@@ -86,6 +86,13 @@ class Prepared:
         the per-key arrays are needed after it (tens of megabytes per million rows)."""
         self.fills, self.financing, self.opening = {}, {}, {}
 
+    def release_sources(self) -> None:
+        """Drop the fills' input columns the tables do not take values from (the tables take
+        ids and prices from the fills, and every column of financing events and carried lots)."""
+        fills = self.sources["fills"]
+        fills.columns = {n: c for n, c in fills.columns.items() if n in ("fill_id", "price")}
+        fills.order = np.zeros(0, np.int64)
+
 
 def arrow_columns(frame: pd.DataFrame | None, names: tuple[str, ...]) -> dict[str, pa.Array]:
     if frame is None or frame.empty:

@@ -9,6 +9,7 @@ from __future__ import annotations
 import functools
 import json
 import sys
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from decimal import Decimal
 from importlib.metadata import version
@@ -18,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
-from reconcile.core.matching import match_canonical
+from reconcile.core.matching import HeldFrames, match_canonical, match_held
 from reconcile.core.summary import BookTotals
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError, InputError
 from reconcile.io import readers
@@ -62,6 +63,28 @@ class Inputs:
                 summary.setdefault("accepted", len(frame))
                 found.append({**summary, "kind": kind})
         return found
+
+    def record(self) -> InputsRecord:
+        """What the outputs say about these inputs, without the frames."""
+        return InputsRecord(tuple(self.summaries()), self.timezone, self.rejected, self.warnings)
+
+
+@dataclass(frozen=True)
+class InputsRecord:
+    """What results say about their inputs (sources, counts, time zone, rejected rows and
+    warnings), kept when the input frames themselves have been let go of."""
+
+    found: tuple[dict[str, Any], ...]
+    timezone: str | None
+    rejected: pd.DataFrame | None
+    warnings: tuple[str, ...]
+
+    def summaries(self) -> list[dict[str, Any]]:
+        return [dict(summary) for summary in self.found]
+
+
+#: Inputs as the writers and the terminal describe them: read, or only recorded.
+Described = Inputs | InputsRecord
 
 
 def read_inputs(
@@ -135,13 +158,13 @@ def write_rejects(rejected: pd.DataFrame, path: Path) -> Path:
     return path
 
 
-def finish_rejects(inputs: Inputs, path: Path | None) -> None:
+def finish_rejects(inputs: Described, path: Path | None) -> None:
     """Write the rows set aside, when ``--rejects`` asked for them."""
     if path is not None and inputs.rejected is not None:
         write_rejects(inputs.rejected, path)
 
 
-def show_warnings(inputs: Inputs) -> None:
+def show_warnings(inputs: Described) -> None:
     terminal.warnings(terminal.console(stderr=True), inputs.warnings)
 
 
@@ -158,7 +181,19 @@ def match_inputs(inputs: Inputs, **options: Any) -> Book:
         )
 
 
-def write_book(book: Book, inputs: Inputs, out: Path, fmt: str) -> list[Path]:
+def read_and_match(read: Callable[[], Inputs], **options: Any) -> tuple[Book, InputsRecord]:
+    """``read()`` then :func:`match_inputs`, letting go of the input frames as soon as the
+    match has taken what it needs from them: only their record is kept, so a run over millions
+    of fills does not hold them beside the tables built from them."""
+    inputs = read()
+    record = inputs.record()
+    held = HeldFrames(inputs.fills, inputs.financing, inputs.opening, releasable=True)
+    del inputs
+    with terminal.progress_bar("matching") as progress:
+        return match_held(held, progress=progress, **options), record
+
+
+def write_book(book: Book, inputs: Described, out: Path, fmt: str) -> list[Path]:
     manifest = run_manifest("match", book, inputs)
     return write_tables(book.stored_tables(), out, fmt, {"run.json": manifest})
 
@@ -179,7 +214,7 @@ def match_file_in_batches(
     show_match(run.totals, run.inputs, run.written, options.get("rejects"))
 
 
-def run_manifest(command: str, book: Book | BookTotals, inputs: Inputs) -> dict[str, Any]:
+def run_manifest(command: str, book: Book | BookTotals, inputs: Described) -> dict[str, Any]:
     """What produced a set of results: enough to reproduce them, nothing machine-specific."""
     if isinstance(book, BookTotals):
         counts = book.counts
@@ -200,7 +235,7 @@ def run_manifest(command: str, book: Book | BookTotals, inputs: Inputs) -> dict[
 
 
 def show_match(
-    book: Book | BookTotals, inputs: Inputs, written: list[Path], rejects: Path | None = None
+    book: Book | BookTotals, inputs: Described, written: list[Path], rejects: Path | None = None
 ) -> None:
     show_warnings(inputs)
     terminal.match_summary(terminal.console(), book, inputs.summaries(), written, rejects)

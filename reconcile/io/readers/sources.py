@@ -19,6 +19,7 @@ import pandas as pd
 
 from reconcile import schema
 from reconcile.core.canon import canonical_fills, canonical_financing, screen
+from reconcile.core.frames import release_unused_memory
 from reconcile.errors import ConfigError, Problem, ValidationError
 from reconcile.io.readers.delimited import Dialect
 from reconcile.io.readers.excel import PROBLEMS
@@ -92,6 +93,7 @@ def read_source(
             decimals=decimals,
         )
 
+    source = None
     if kind == "fills" and profile is None and not keep_rejects:
         # Clean canonical fills have their decimals parsed by the CSV reader itself. Problems,
         # and repeated rows (compared as written: 5 and 5.0 are different text), are judged by
@@ -102,8 +104,11 @@ def read_source(
             pass
         else:
             if not _has_decimals(typed.frame) or not typed.summary.get("duplicates_dropped"):
-                return typed
-    return attempt()
+                source = typed
+    if source is None:
+        source = attempt()
+    release_unused_memory()  # the parsed text is gone; hand its pages back for what comes next
+    return source
 
 
 #: Fill columns a plain CSV can have parsed as decimals by the reader.
