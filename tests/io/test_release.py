@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 
 from reconcile.core.matching import match_canonical
-from reconcile.fast import engine
+from reconcile.fast import tables
 from reconcile.io import session
 
 SAMPLE = Path(__file__).parents[2] / "sample_data" / "fills.csv"
@@ -31,19 +31,19 @@ def test_read_and_match_lets_go_of_the_fills_before_building_tables(
 ) -> None:
     refs: list[weakref.ref[pd.DataFrame]] = []
     alive_at_build: list[bool] = []
-    build_all = engine.TableBuilder.build_all
+    build_all = tables.TableBuilder.build_all
 
     def read() -> session.Inputs:
         inputs = session.read_inputs(SAMPLE)
         refs.append(weakref.ref(inputs.fills))
         return inputs
 
-    def watched(self: engine.TableBuilder, *args: Any) -> Any:
+    def watched(self: tables.TableBuilder, *args: Any) -> Any:
         gc.collect()
         alive_at_build.append(refs[0]() is not None)
         return build_all(self, *args)
 
-    monkeypatch.setattr(engine.TableBuilder, "build_all", watched)
+    monkeypatch.setattr(tables.TableBuilder, "build_all", watched)
     book, record = session.read_and_match(read, engine="fast")
     assert alive_at_build == [False]
     assert record.summaries() == session.read_inputs(SAMPLE).summaries()
