@@ -285,11 +285,17 @@ class _Checker:
         return upper
 
     def check_distinct_ids(
-        self, column: str, ids: pa.Array, compare: list[str], dedupe: bool
+        self,
+        column: str,
+        ids: pa.Array,
+        compare: list[str],
+        dedupe: bool,
+        repeated: np.ndarray | None = None,
     ) -> np.ndarray:
-        """Rows to keep; exact repeats are errors unless ``dedupe``, clashing ids always are."""
+        """Rows to keep; exact repeats are errors unless ``dedupe``, clashing ids always are.
+        ``repeated`` flags the rows whose id occurs more than once, when already known."""
         # Only rows sharing an id can repeat or clash, so only those are compared in full.
-        suspects = np.flatnonzero(vectorised.repeated(ids))
+        suspects = np.flatnonzero(vectorised.repeated(ids) if repeated is None else repeated)
         keep = np.ones(len(self.frame), dtype=bool)
         if not len(suspects):
             return keep
@@ -342,13 +348,16 @@ class _Checker:
             )
         return keep
 
-    def check_one_per_key(self, frame: pd.DataFrame, column: str, what: str) -> None:
-        """One value of ``column`` per (account, instrument): name the rows that disagree."""
+    def check_one_per_key(
+        self, frame: pd.DataFrame, column: str, what: str, codes: np.ndarray | None = None
+    ) -> None:
+        """One value of ``column`` per (account, instrument): name the rows that disagree.
+        ``codes`` are the column's value codes (:func:`vectorised.codes`), when already known."""
         if any(p.column == column for p in self.problems):
             return  # bad values would only be reported twice
         if self.keys is None or len(self.keys) != len(frame):
             self.keys = vectorised.key_codes(_arrow(frame["account"]), _arrow(frame["instrument"]))
-        if vectorised.one_value_per_key(self.keys, _arrow(frame[column])):
+        if vectorised.one_value_per_key(self.keys, _arrow(frame[column]), codes):
             return
         if isinstance(frame[column].dtype, pd.ArrowDtype):
             frame = frame.assign(**{column: frame[column].astype(str)})
@@ -411,7 +420,9 @@ def _rewrite_exponents(text: pa.Array, plain: pa.Array) -> tuple[pa.Array, list[
 
 def _as_text(series: pd.Series, column: str, checker: _Checker | None) -> pa.Array:
     if isinstance(series.dtype, pd.ArrowDtype) or pd.api.types.is_string_dtype(series.dtype):
-        return _arrow(series).cast(pa.string())
+        array = _arrow(series)
+        # pandas keeps text as large strings and wants them back so: no cast either way.
+        return array if pa.types.is_large_string(array.type) else array.cast(pa.string())
     if pd.api.types.is_integer_dtype(series.dtype):
         return pa.array(series.astype(str).tolist(), pa.string())
     values: list[str | None] = []
@@ -536,6 +547,23 @@ def _assemble(
     return pd.DataFrame(data)
 
 
+def _fill_codes(columns: dict[str, pa.Array | pd.Series]) -> dict[str, np.ndarray | None]:
+    """The whole-column steps the fill checks need after conversion, run concurrently: which
+    ids repeat, and the codes of the columns checked per key."""
+
+    def coder(name: str) -> Callable[[], np.ndarray | None]:
+        values = columns[name]
+        return lambda: vectorised.codes(values) if isinstance(values, pa.Array) else None
+
+    ids = columns["fill_id"]
+    assert isinstance(ids, pa.Array)
+    steps: dict[str, Callable[[], np.ndarray | None]] = {
+        "repeated": lambda: vectorised.repeated(ids),
+        **{name: coder(name) for name in ("account", "instrument", "currency", "multiplier")},
+    }
+    return concurrently(steps)
+
+
 def canonical_fills(
     frame: pd.DataFrame, *, source: str = "fills", timezone: str | None = None, dedupe: bool = False
 ) -> pd.DataFrame:
@@ -574,10 +602,16 @@ def canonical_fills(
         }
     )
     compare = [c for c in frame.columns if c != schema.SOURCE_ROW]
-    keep = check.check_distinct_ids("fill_id", columns["fill_id"], compare, dedupe)
+    found = _fill_codes(columns)
+    keep = check.check_distinct_ids(
+        "fill_id", columns["fill_id"], compare, dedupe, found.pop("repeated")
+    )
     result = _assemble(columns, frame, keep, _extras(frame, schema.FILL_COLUMNS), check.rows)
-    check.check_one_per_key(result, "currency", "currency")
-    check.check_one_per_key(result, "multiplier", "multiplier")
+    kept = {name: None if c is None else c[keep] for name, c in found.items()}
+    if kept["account"] is not None and kept["instrument"] is not None:
+        check.keys = vectorised.pair_codes(kept["account"], kept["instrument"])
+    check.check_one_per_key(result, "currency", "currency", kept["currency"])
+    check.check_one_per_key(result, "multiplier", "multiplier", kept["multiplier"])
     _raise(check)
     result.attrs["read_summary"] = {
         "source": source,

@@ -101,22 +101,36 @@ def key_codes(account: pa.Array, instrument: pa.Array) -> np.ndarray:
     """One integer per (account, instrument) pair."""
     if len(account) == 0:
         return np.zeros(0, np.int64)
-    instruments = _codes(instrument)
-    codes: np.ndarray = _codes(account) * (int(instruments.max()) + 1) + instruments
-    return codes
+    return pair_codes(_codes(account), _codes(instrument))
 
 
-def one_value_per_key(keys: np.ndarray, values: pa.Array) -> bool:
-    """Whether each key (see :func:`key_codes`) has a single value in ``values``."""
+def pair_codes(accounts: np.ndarray, instruments: np.ndarray) -> np.ndarray:
+    """One integer per (account, instrument) pair, from each column's codes (see :func:`codes`)."""
+    if len(accounts) == 0:
+        return np.zeros(0, np.int64)
+    paired: np.ndarray = accounts * (int(instruments.max()) + 1) + instruments
+    if int(paired.max()) >= 4 * len(paired):  # sparse: few of many possible pairs occur
+        paired = np.unique(paired, return_inverse=True)[1].reshape(-1)
+    return paired
+
+
+def one_value_per_key(
+    keys: np.ndarray, values: pa.Array, value_codes: np.ndarray | None = None
+) -> bool:
+    """Whether each key (see :func:`key_codes`) has a single value in ``values`` (whose codes,
+    when already known, are ``value_codes``)."""
     if len(values) == 0:
         return True
-    codes = _codes(values)
-    low = np.full(int(keys.max()) + 1, np.iinfo(np.int64).max)
-    high = np.full(int(keys.max()) + 1, -1)
-    np.minimum.at(low, keys, codes)
-    np.maximum.at(high, keys, codes)
-    seen = high >= 0
-    return bool(np.all(low[seen] == high[seen]))
+    found = _codes(values) if value_codes is None else value_codes
+    # Any one value per key stands for its key: all rows agree with it only if all are equal.
+    chosen = np.empty(int(keys.max()) + 1, np.int64)
+    chosen[keys] = found
+    return bool(np.array_equal(chosen[keys], found))
+
+
+def codes(values: pa.Array) -> np.ndarray | None:
+    """An integer per row, equal where the values are equal; None when some value is missing."""
+    return None if values.null_count else _codes(values)
 
 
 def _codes(values: pa.Array) -> np.ndarray:
