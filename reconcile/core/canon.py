@@ -607,7 +607,8 @@ def canonical_fills(
         "fill_id", columns["fill_id"], compare, dedupe, found.pop("repeated")
     )
     result = _assemble(columns, frame, keep, _extras(frame, schema.FILL_COLUMNS), check.rows)
-    kept = {name: None if c is None else c[keep] for name, c in found.items()}
+    every = bool(keep.all())
+    kept = {name: c if c is None or every else c[keep] for name, c in found.items()}
     if kept["account"] is not None and kept["instrument"] is not None:
         check.keys = vectorised.pair_codes(kept["account"], kept["instrument"])
     check.check_one_per_key(result, "currency", "currency", kept["currency"])
