@@ -139,7 +139,7 @@ class _Checker:
             shown = trimmed(self.raw_text(column))
             blank = pc.fill_null(pc.equal(shown, ""), True)
             values = self._parse_decimal_text(column, shown, expected)
-        if default is not None:
+        if default is not None and pc.any(blank).as_py():
             values = pc.if_else(blank, pa.scalar(Decimal(default), values.type), values)
         elif not optional:
             missing = _positions(blank)

@@ -57,3 +57,29 @@ def test_the_api_leaves_the_callers_frames_alone() -> None:
     before = fills.copy()
     match_canonical(fills, engine="fast")
     pd.testing.assert_frame_equal(fills, before)
+
+
+def _big_fills_csv(path: Path, rows: int) -> Path:
+    lines = ["fill_id,account,instrument,side,quantity,price,time,commission,currency"]
+    lines += [
+        f"F{i},ACC{i % 7},INS{i % 13},{'buy' if i % 2 else 'sell'},{i % 9 + 1},{i % 50 + 10}.25,"
+        f"2026-11-02T09:{i // 3600 % 60:02d}:{i % 60:02d}Z,0.50,EUR"
+        for i in range(rows)
+    ]
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def test_a_read_column_is_one_array_that_validation_shares(tmp_path: Path) -> None:
+    """Arrow reads a large file in many blocks; each column is joined once on reading, so the
+    checks take it as it is instead of copying it beside the frame that holds it."""
+    from reconcile.core.canon import canonical_fills
+    from reconcile.io.readers.delimited import read_delimited
+
+    path = _big_fills_csv(tmp_path / "fills.csv", 60_000)  # several of the reader's 1 MB blocks
+    frame = read_delimited(path, decimals=("quantity", "price", "commission"))
+    ids = frame["fill_id"].array._pa_array  # the pandas column's Arrow storage
+    assert ids.num_chunks == 1
+    canon = canonical_fills(frame)
+    shared = canon["fill_id"].array._pa_array.chunk(0).buffers()[2].address
+    assert shared == ids.chunk(0).buffers()[2].address

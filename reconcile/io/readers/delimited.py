@@ -21,6 +21,7 @@ import pyarrow as pa
 import pyarrow.csv as pa_csv
 
 from reconcile.errors import InputError, Problem, SourceEmptyError, ValidationError
+from reconcile.io.readers.arrow_frame import contiguous_frame
 from reconcile.io.readers.typed_csv import read_decimal_csv
 from reconcile.schema import SOURCE_ROW
 
@@ -75,7 +76,7 @@ def read_delimited(
         )
     except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
         raise _diagnose_csv(path, header, dialect, exc) from exc
-    frame: pd.DataFrame = table.to_pandas()
+    frame = contiguous_frame(table)
     frame[SOURCE_ROW] = _record_lines(path, table.num_rows, dialect)
     return frame
 

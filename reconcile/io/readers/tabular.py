@@ -16,6 +16,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from reconcile.errors import InputError, SourceEmptyError, SourceNotFoundError
+from reconcile.io.readers.arrow_frame import contiguous_frame
 from reconcile.io.readers.delimited import Dialect, read_delimited
 
 FORMATS = ("csv", "tsv", "parquet", "excel", "jsonl", "fix")
@@ -115,7 +116,4 @@ def _read_parquet(path: Path) -> pd.DataFrame:
         table = pq.read_table(path)
     except (pa.ArrowInvalid, OSError) as exc:
         raise InputError(f"{path}: cannot be read as Parquet: {exc}") from exc
-    frame: pd.DataFrame = table.to_pandas(
-        types_mapper=lambda t: pd.ArrowDtype(t) if pa.types.is_decimal(t) else None
-    )
-    return frame
+    return contiguous_frame(table)

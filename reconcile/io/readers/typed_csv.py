@@ -15,6 +15,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pa_csv
 
+from reconcile.io.readers.arrow_frame import contiguous_frame
+
 #: Bytes read as text first, to learn the places each decimal column is written with.
 SAMPLE_BYTES = 1 << 22
 
@@ -44,10 +46,7 @@ def read_decimal_csv(path: Path, header: list[str], decimals: Sequence[str]) -> 
     for index, field in enumerate(table.schema):
         if pa.types.is_decimal(field.type):
             table = table.set_column(index, field.name, _tight(table.column(index)))
-    frame: pd.DataFrame = table.to_pandas(
-        types_mapper=lambda t: pd.ArrowDtype(t) if pa.types.is_decimal(t) else None
-    )
-    return frame
+    return contiguous_frame(table)
 
 
 def _sampled_places(path: Path, header: list[str], wanted: list[str]) -> dict[str, int] | None:
