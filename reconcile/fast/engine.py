@@ -18,6 +18,7 @@ from reconcile.core.engine import replay
 from reconcile.core.frames import release_unused_memory
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
+from reconcile.fast.pages import releasable_zeros
 from reconcile.fast.prepare import Prepared, prepare
 from reconcile.fast.tables import KEY, KernelOutput, TableBuilder
 from reconcile.money import Rounding
@@ -87,10 +88,10 @@ def run_kernel(
     n_fills, n_open, n_fin = len(fills["qty"]), len(opening["qty"]), len(financing["amount"])
     keys = prepared.key_count
     bound = n_fills + n_open + 1
-    pieces = np.zeros((bound, PIECE_COLUMNS), np.int64)
-    piece_times = np.zeros((bound, 2), np.int64)
-    trips = np.zeros((n_fills + keys + 1, TRIP_COLUMNS), np.int64)
-    trip_times = np.zeros((n_fills + keys + 1, 2), np.int64)
+    pieces = releasable_zeros((bound, PIECE_COLUMNS))
+    piece_times = releasable_zeros((bound, 2))
+    trips = releasable_zeros((n_fills + keys + 1, TRIP_COLUMNS))
+    trip_times = releasable_zeros((n_fills + keys + 1, 2))
     lots = np.zeros((bound, LOT_COLUMNS), np.int64)
     lot_times = np.zeros(bound, np.int64)
     key_out = np.zeros((keys, KEY_COLUMNS), np.int64)

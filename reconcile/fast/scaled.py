@@ -247,7 +247,7 @@ def _mixed_scales(values: np.ndarray, row_scales: np.ndarray, valid: np.ndarray 
     present = values if valid is None else values[valid]
     present_scales = row_scales if valid is None else row_scales[valid]
     int_digits = int((digits(present) - present_scales).max()) if len(present) else 1
-    kind = _decimal_type(max(int_digits, 1) + scale, scale)
+    kind = decimal_type(max(int_digits, 1) + scale, scale)
     distinct = np.unique(row_scales)
     order = np.argsort(row_scales, kind="stable")
     parts = []
@@ -260,7 +260,7 @@ def _mixed_scales(values: np.ndarray, row_scales: np.ndarray, valid: np.ndarray 
     return pa.concat_arrays(parts).take(pa.array(inverse))
 
 
-def _decimal_type(precision: int, scale: int) -> pa.DataType:
+def decimal_type(precision: int, scale: int) -> pa.DataType:
     if precision <= 38:
         return pa.decimal128(precision, scale)
     return pa.decimal256(precision, scale)

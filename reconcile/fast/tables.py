@@ -16,14 +16,17 @@ import pyarrow.compute as pc
 from reconcile import schema
 from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
+from reconcile.fast.pages import release_rows
 from reconcile.fast.prepare import Prepared
-from reconcile.fast.scaled import ints_of, to_decimal
+from reconcile.fast.scaled import decimal_type, ints_of, to_decimal
 
 KEY = "_key"
 TIME = pa.timestamp("ns", tz="UTC")
 DIRECTIONS = pa.array(["short", "long"], pa.string())
 UNATTRIBUTED_REASON = "no open position at the event time"
 _EMPTY = np.zeros((0, 0), np.int64)
+#: Closed lots are built this many pieces at a time (about 250 MB of table per slice).
+CHUNK_ROWS = 1 << 20
 
 
 @dataclass
@@ -77,11 +80,10 @@ class TableBuilder:
     def build_all(self, good: np.ndarray, average: bool) -> dict[str, pa.Table]:
         """Every table, dropping the kernel rows and derived columns of each once it is built,
         so the largest (closed lots) does not stay in memory beside its integer rows."""
-        out, derived = self.out, self.d
+        out = self.out
+        self._stash_piece_columns()
         tables = {"closed_lots": self.closed_lots(average)}
         out.pieces, out.piece_times = _EMPTY, _EMPTY
-        for name in ("piece_gross", "piece_net", "piece_open_price"):
-            derived.pop(name)
         tables["round_trips"] = self.round_trips()
         out.trips, out.trip_times = _EMPTY, _EMPTY
         tables["open_lots"] = self.open_lots(average)
@@ -104,8 +106,26 @@ class TableBuilder:
         scales = kernel.AVERAGE_PLACES if average else self.p.key["ps"][keys]
         return to_decimal(values, scales)
 
+    def _stash_piece_columns(self) -> None:
+        """Move the derived piece columns into piece columns only the finish step reads (the
+        open price or pool cost, the pool quantity, a spare), so that they are handed back to
+        the system with the kernel's rows while the closed lots are built."""
+        rows = self.out.pieces
+        for column, name in ((4, "piece_open_price"), (6, "piece_gross"), (9, "piece_net")):
+            rows[:, column] = self.d.pop(name)
+
     def closed_lots(self, average: bool) -> pa.Table:
+        """Built ``CHUNK_ROWS`` pieces at a time, each slice's kernel rows released once built."""
         rows, times = self.out.pieces, self.out.piece_times
+        batches = []
+        for start in range(0, max(len(rows), 1), CHUNK_ROWS):
+            stop = min(start + CHUNK_ROWS, len(rows))
+            batches.append(self._closed_lot_batch(rows[start:stop], times[start:stop], average))
+            release_rows(rows, stop)
+            release_rows(times, stop)
+        return _joined(batches)
+
+    def _closed_lot_batch(self, rows: np.ndarray, times: np.ndarray, average: bool) -> pa.Table:
         keys = rows[:, 0]
         ws, minor = self.p.key["ws"][keys], self.p.key["minor"][keys]
         qs = self.p.key["qs"][keys]
@@ -118,12 +138,12 @@ class TableBuilder:
                 "open_time": lambda: _times(times[:, 0]),
                 "close_time": lambda: _times(times[:, 1]),
                 "quantity": lambda: to_decimal(rows[:, 3], qs),
-                "open_price": lambda: self._open_price(self.d["piece_open_price"], keys, average),
+                "open_price": lambda: self._open_price(rows[:, 4], keys, average),
                 "close_price": lambda: self.fill_prices.take(pa.array(rows[:, 2])),
-                "gross_pnl": lambda: to_decimal(self.d["piece_gross"], minor),
+                "gross_pnl": lambda: to_decimal(rows[:, 6], minor),
                 "commission": lambda: to_decimal(rows[:, 7], ws),
                 "financing": lambda: to_decimal(rows[:, 8], ws),
-                "net_pnl": lambda: to_decimal(self.d["piece_net"], minor),
+                "net_pnl": lambda: to_decimal(rows[:, 9], minor),
                 "multiplier": lambda: self._multiplier(keys),
                 "gross_pnl_unrounded": lambda: to_decimal(rows[:, 5], ws),
                 "trip_id": lambda: self._trip_ids(keys, rows[:, 10]),
@@ -242,6 +262,26 @@ def _table(columns: dict[str, pa.Array], names: tuple[str, ...], keys: np.ndarra
     arrays = [_plain(columns[n]) for n in names]
     arrays.append(pa.array(np.asarray(keys, np.int64), pa.int64()))
     return pa.Table.from_arrays(arrays, names=[*names, KEY])
+
+
+def _joined(parts: list[pa.Table]) -> pa.Table:
+    """Tables built from slices of one table's rows, as one table typed as if built whole.
+
+    A decimal column is typed by its values (the widest integer part and the largest scale),
+    so slices can differ; each is brought to the widest, which is what the whole would have had.
+    """
+    if len(parts) == 1:
+        return parts[0]
+    fields = []
+    for index, field in enumerate(parts[0].schema):
+        kinds = [part.schema.field(index).type for part in parts]
+        if pa.types.is_decimal(field.type):
+            scale = max(k.scale for k in kinds)
+            whole = max(k.precision - k.scale for k in kinds)
+            field = field.with_type(decimal_type(whole + scale, scale))
+        fields.append(field)
+    schema = pa.schema(fields)
+    return pa.concat_tables([part.cast(schema) for part in parts])
 
 
 def _plain(values: pa.Array | pa.ChunkedArray) -> pa.Array:
