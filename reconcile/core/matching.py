@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -76,13 +76,18 @@ class HeldFrames:
 
     A caller that reads its inputs only to match them (the command line) hands them over with
     ``releasable=True``: the fast path then lets go of them (:meth:`release`) once it has taken
-    what it needs, so millions of fills are not kept beside the tables built from them.
+    what it needs, so millions of fills are not kept beside the tables built from them. A caller
+    that can also ``reread`` them (the same frames, read again) lets the fast path let go before
+    its kernel runs; it reads them again only for a key that overflows 64 bits.
     """
 
     fills: pd.DataFrame
     financing: pd.DataFrame | None = None
     opening: pd.DataFrame | None = None
     releasable: bool = False
+    reread: Callable[[], tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]] | None = (
+        None
+    )
 
     def rows(self) -> int:
         return sum(len(f) for f in (self.fills, self.financing, self.opening) if f is not None)
@@ -213,6 +218,7 @@ def _fast_book(
             rounding,
             compiled=numba_available(),
             release=held.release,
+            reread=held.reread if held.releasable else None,
         )
     except NeedsReference:
         return None

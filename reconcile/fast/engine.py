@@ -16,14 +16,18 @@ import pyarrow as pa
 from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
 from reconcile.core.frames import release_unused_memory
+from reconcile.errors import InputError
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
 from reconcile.fast.pages import releasable_zeros
-from reconcile.fast.prepare import Prepared, prepare
+from reconcile.fast.prepare import Prepared, arrow_columns, prepare
 from reconcile.fast.tables import KEY, KernelOutput, TableBuilder
 from reconcile.money import Rounding
 
 PIECE_COLUMNS, TRIP_COLUMNS, LOT_COLUMNS, KEY_COLUMNS = 12, 12, 9, 9
+
+
+Frames = tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]
 
 
 def fast_book(
@@ -36,13 +40,24 @@ def fast_book(
     *,
     compiled: bool = True,
     release: Callable[[], None] | None = None,
+    reread: Callable[[], Frames] | None = None,
 ) -> Book:
     """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``.
 
-    ``release`` is called once the input frames are no longer needed (before the tables are
-    built), for a caller that can let go of them then.
+    ``release`` is called once the input frames are no longer needed, for a caller that can let
+    go of them then: before the tables are built or, when the caller can also ``reread`` the same
+    frames, as soon as the kernel's inputs are prepared and every key fits in 64 bits (the
+    frames are read again only if a key overflows later, which real books almost never do).
     """
     prepared = prepare(fills, financing, opening, method)
+    frames: Frames | None = (fills, financing, opening)
+    del fills, financing, opening
+    if release is not None and reread is not None and _every_key_fits(prepared):
+        frames = None
+        prepared.release_sources()
+        release()
+        release = None
+        release_unused_memory()
     out = run_kernel(prepared, method, convention, compiled=compiled)
     prepared.release_kernel_inputs()
     average = method == "average"
@@ -55,11 +70,12 @@ def fast_book(
     reference = None
     trips = out.keys[:, 8].copy()
     if len(fallback):
-        reference = _reference_book(
-            prepared, fallback, fills, financing, opening, method, convention, rounding
-        )
+        if frames is None:
+            assert reread is not None
+            frames = _same_frames(reread(), prepared)
+        reference = _reference_book(prepared, fallback, *frames, method, convention, rounding)
         trips[fallback] = _trip_counts(reference, prepared, fallback)
-    del fills, financing, opening
+    frames = None
     if release is not None:
         release()
     prepared.release_sources()
@@ -74,6 +90,27 @@ def fast_book(
     # The book holds the Arrow tables: a caller that asks for frames gets them converted then.
     arrow = {name: table.drop_columns([KEY]) for name, table in tables.items()}
     return Book(**arrow, method=method, commission=convention, rounding=rounding)
+
+
+def _every_key_fits(prepared: Prepared) -> bool:
+    return not bool((prepared.key["status"] != kernel.OK).any())
+
+
+def _same_frames(frames: Frames, prepared: Prepared) -> Frames:
+    """Frames read again for a key that overflowed, checked to be the ones first matched."""
+    ids = prepared.sources["fills"].columns.get("fill_id")
+    same = all(
+        (0 if frame is None else len(frame)) == len(prepared.sources[name])
+        for frame, name in zip(frames, ("fills", "financing", "opening"), strict=True)
+    )
+    if same and ids is not None:
+        same = arrow_columns(frames[0], ("fill_id",))["fill_id"].equals(ids)
+    if not same:
+        raise InputError(
+            "the input files changed while they were being matched: a key that overflowed 64 "
+            "bits needed its fills read again, and they are no longer the fills first read"
+        )
+    return frames
 
 
 def run_kernel(

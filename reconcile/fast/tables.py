@@ -72,7 +72,9 @@ class TableBuilder:
         self.trip_offsets = trip_offsets
         fills = prepared.sources["fills"].columns
         opening = prepared.sources["opening"].columns
-        self.fill_ids = _plain(fills["fill_id"]) if fills else pa.array([], pa.string())
+        # Taken out of the sources: the ids become Arrow strings (a copy of pandas' large
+        # strings), and the original need not stay beside the copy while the tables are built.
+        self.fill_ids = _plain(fills.pop("fill_id")) if fills else pa.array([], pa.string())
         opened = _plain(opening["open_fill_id"]) if opening else pa.array([], pa.string())
         self.lot_ids = pa.concat_arrays([self.fill_ids, opened]) if len(opened) else self.fill_ids
         self.fill_prices = fills["price"] if fills else pa.array([], pa.decimal128(1, 0))
@@ -281,7 +283,23 @@ def _joined(parts: list[pa.Table]) -> pa.Table:
             field = field.with_type(decimal_type(whole + scale, scale))
         fields.append(field)
     schema = pa.schema(fields)
-    return pa.concat_tables([part.cast(schema) for part in parts])
+    return pa.concat_tables([_retyped(part, schema) for part in parts])
+
+
+def _retyped(part: pa.Table, schema: pa.Schema) -> pa.Table:
+    columns = []
+    for column, field in zip(part.columns, schema, strict=True):
+        if column.type != field.type:
+            column = pa.chunked_array([_retype(c, field.type) for c in column.chunks], field.type)
+        columns.append(column)
+    return pa.Table.from_arrays(columns, schema=schema)
+
+
+def _retype(values: pa.Array, kind: pa.DataType) -> pa.Array:
+    """A wider decimal at the same scale and width is the same bytes: a view, not a copy."""
+    if values.type.scale == kind.scale and values.type.bit_width == kind.bit_width:
+        return values.view(kind)
+    return values.cast(kind)
 
 
 def _plain(values: pa.Array | pa.ChunkedArray) -> pa.Array:

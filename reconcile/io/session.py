@@ -187,10 +187,20 @@ def read_and_match(read: Callable[[], Inputs], **options: Any) -> tuple[Book, In
     of fills does not hold them beside the tables built from them."""
     inputs = read()
     record = inputs.record()
-    held = HeldFrames(inputs.fills, inputs.financing, inputs.opening, releasable=True)
+    held = HeldFrames(
+        inputs.fills,
+        inputs.financing,
+        inputs.opening,
+        releasable=True,
+        reread=lambda: _frames(read()),
+    )
     del inputs
     with terminal.progress_bar("matching") as progress:
         return match_held(held, progress=progress, **options), record
+
+
+def _frames(inputs: Inputs) -> tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]:
+    return inputs.fills, inputs.financing, inputs.opening
 
 
 def write_book(book: Book, inputs: Described, out: Path, fmt: str) -> list[Path]:

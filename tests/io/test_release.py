@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import gc
 import weakref
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -16,8 +17,10 @@ import pandas as pd
 import pytest
 
 from reconcile.core.matching import match_canonical
+from reconcile.errors import InputError
 from reconcile.fast import tables
 from reconcile.io import session
+from tests.builders import rows_of
 
 SAMPLE = Path(__file__).parents[2] / "sample_data" / "fills.csv"
 
@@ -83,3 +86,53 @@ def test_a_read_column_is_one_array_that_validation_shares(tmp_path: Path) -> No
     canon = canonical_fills(frame)
     shared = canon["fill_id"].array._pa_array.chunk(0).buffers()[2].address
     assert shared == ids.chunk(0).buffers()[2].address
+
+
+def _overflowing_fills(path: Path) -> Path:
+    """A key whose numbers fit their scales but whose gross P&L leaves 64 bits in the kernel
+    (12-digit quantities at 10^5 prices), beside an ordinary key."""
+    from tests.fast.test_equality import BIG
+
+    BIG.to_csv(path, index=False)
+    return path
+
+
+def _counting_read(path: Path) -> tuple[Callable[[], session.Inputs], list[int]]:
+    calls: list[int] = []
+
+    def read() -> session.Inputs:
+        calls.append(1)
+        return session.read_inputs(path)
+
+    return read, calls
+
+
+def test_a_key_that_overflows_after_the_early_release_is_read_again(tmp_path: Path) -> None:
+    path = _overflowing_fills(tmp_path / "fills.csv")
+    read, calls = _counting_read(path)
+    book, _ = session.read_and_match(read, engine="fast")
+    assert len(calls) == 2  # once to match, once more for the key the kernel could not hold
+    expected = session.match_inputs(session.read_inputs(path), engine="reference")
+    for name, frame in _tables(expected).items():
+        assert rows_of(_tables(book)[name]) == rows_of(frame), name
+
+
+def test_inputs_that_fit_are_read_once(tmp_path: Path) -> None:
+    read, calls = _counting_read(SAMPLE)
+    session.read_and_match(read, engine="fast")
+    assert len(calls) == 1
+
+
+def test_a_file_changed_before_it_is_read_again_is_an_error(tmp_path: Path) -> None:
+    path = _overflowing_fills(tmp_path / "fills.csv")
+    calls: list[int] = []
+
+    def read() -> session.Inputs:
+        calls.append(1)
+        inputs = session.read_inputs(path)
+        if len(calls) == 1:  # someone edits the file while the first read is matched
+            path.write_text(path.read_text(encoding="utf-8").replace("s4", "s5"), encoding="utf-8")
+        return inputs
+
+    with pytest.raises(InputError, match="changed while they were being matched"):
+        session.read_and_match(read, engine="fast")
