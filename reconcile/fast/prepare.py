@@ -301,7 +301,7 @@ class _Scales:
 
     def at(self, source: str, ints: np.ndarray, scale: int, target: np.ndarray) -> np.ndarray:
         keys = self.keys[source]
-        out, bad = rescale(ints, scale, target[keys])
+        out, bad = rescale(ints, scale, keys, target)
         self.flag(keys[bad])
         return out
 

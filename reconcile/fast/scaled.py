@@ -89,25 +89,33 @@ def significant_places(values: np.ndarray, scale: int) -> np.ndarray:
     return places
 
 
-def rescale(values: np.ndarray, scale: int, target: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Values at ``scale`` moved to per-row ``target`` scales: (integers, did not fit).
+def rescale(
+    values: np.ndarray, scale: int, keys: np.ndarray, key_target: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Values at ``scale`` moved to the target scale of each row's key: (integers, did not fit).
 
     Moving down must be exact (the target is at least each value's significant places).
-    One compiled pass when numba is there, else whole-column numpy.
+    One compiled pass when numba is there (no per-row copy of the targets), else numpy.
     """
     if numba_available():
         values = np.ascontiguousarray(values, np.int64)
-        shift = np.ascontiguousarray(np.broadcast_to(target - scale, values.shape), np.int64)
         out, bad = np.empty_like(values), np.zeros(len(values), bool)
-        _rescale_rows(values, shift, out, bad)
+        _rescale_rows(
+            values,
+            scale,
+            np.ascontiguousarray(keys, np.int64),
+            np.ascontiguousarray(key_target, np.int64),
+            out,
+            bad,
+        )
         return out, bad
-    return rescale_columns(values, scale, target)
+    return rescale_columns(values, scale, key_target[keys])
 
 
 @jit
-def _rescale_rows(values: Any, shift: Any, out: Any, bad: Any) -> None:
+def _rescale_rows(values: Any, scale: int, keys: Any, key_target: Any, out: Any, bad: Any) -> None:
     for i in range(len(values)):
-        step, value = shift[i], values[i]
+        step, value = key_target[keys[i]] - scale, values[i]
         if step < 0:
             out[i] = value // POW10[min(-step, 18)]
         elif step == 0:

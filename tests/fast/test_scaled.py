@@ -110,10 +110,12 @@ def test_rescaling_agrees_with_exact_integers(rows: list[tuple[int, int]], scale
     values = np.array([r[0] for r in rows], np.int64)
     shift = np.array([r[1] for r in rows], np.int64)
     target = scale + shift
+    keys = np.arange(len(values))[::-1]  # each row's key, whose target is the row's own
+    key_target = target[::-1]
     loop_out, loop_bad = np.empty_like(values), np.zeros(len(values), bool)
-    scaled._rescale_rows.py_func(values, shift, loop_out, loop_bad)  # type: ignore[attr-defined]
+    scaled._rescale_rows.py_func(values, scale, keys, key_target, loop_out, loop_bad)  # type: ignore[attr-defined]
     results = [
-        scaled.rescale(values, scale, target),
+        scaled.rescale(values, scale, keys, key_target),
         scaled.rescale_columns(values, scale, target),
         (loop_out, loop_bad),
     ]
