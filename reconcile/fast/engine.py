@@ -79,6 +79,7 @@ def fast_book(
     if release is not None:
         release()
     prepared.release_sources()
+    prepared.sources["fills"].keys = np.zeros(0, np.int64)  # only a replay needed them
     release_unused_memory()
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
     builder = TableBuilder(prepared, out, derived, offsets)

@@ -14,6 +14,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from reconcile import schema
+from reconcile.core.frames import release_unused_memory
 from reconcile.core.threads import concurrently
 from reconcile.fast import kernel
 from reconcile.fast.pages import release_rows
@@ -80,18 +81,38 @@ class TableBuilder:
         self.fill_prices = fills["price"] if fills else pa.array([], pa.decimal128(1, 0))
 
     def build_all(self, good: np.ndarray, average: bool) -> dict[str, pa.Table]:
-        """Every table, dropping the kernel rows and derived columns of each once it is built,
-        so the largest (closed lots) does not stay in memory beside its integer rows."""
+        """Every table, letting go of the kernel rows and derived columns of each as it is
+        built, so the largest (closed lots) is not in memory beside its integer rows."""
         out = self.out
-        self._stash_piece_columns()
-        tables = {"closed_lots": self.closed_lots(average)}
+        self._stash_derived()
+        closed = self.closed_lots(average)
         out.pieces, out.piece_times = _EMPTY, _EMPTY
-        tables["round_trips"] = self.round_trips()
+        opened = self.open_lots(average)
+        # Only closed and open lots take the fills' ids and prices.
+        self.fill_ids = self.lot_ids = pa.array([], pa.string())
+        self.fill_prices = pa.array([], pa.decimal128(1, 0))
+        release_unused_memory()  # what they and the pieces held, before the round trips
+        tables = {"closed_lots": closed, "round_trips": self.round_trips(), "open_lots": opened}
         out.trips, out.trip_times = _EMPTY, _EMPTY
-        tables["open_lots"] = self.open_lots(average)
         tables["positions"] = self.positions(good)
         tables["unattributed"] = self.unattributed()
         return tables
+
+    def _stash_derived(self) -> None:
+        """Move the derived piece and trip columns into columns of the kernel's rows that only
+        the finish step reads, so that they are handed back to the system with those rows as
+        the tables are built slice by slice."""
+        stash = {
+            "pieces": ((4, "piece_open_price"), (6, "piece_gross"), (9, "piece_net")),
+            "trips": (
+                *((3, "trip_entry"), (4, "trip_exit"), (6, "trip_gross")),
+                *((7, "trip_commission"), (8, "trip_financing"), (9, "trip_net")),
+            ),
+        }
+        for rows_name, columns in stash.items():
+            rows = getattr(self.out, rows_name)
+            for column, name in columns:
+                rows[:, column] = self.d.pop(name)
 
     def _key_columns(self, keys: np.ndarray) -> dict[str, pa.Array]:
         index = pa.array(keys)
@@ -108,21 +129,24 @@ class TableBuilder:
         scales = kernel.AVERAGE_PLACES if average else self.p.key["ps"][keys]
         return to_decimal(values, scales)
 
-    def _stash_piece_columns(self) -> None:
-        """Move the derived piece columns into piece columns only the finish step reads (the
-        open price or pool cost, the pool quantity, a spare), so that they are handed back to
-        the system with the kernel's rows while the closed lots are built."""
-        rows = self.out.pieces
-        for column, name in ((4, "piece_open_price"), (6, "piece_gross"), (9, "piece_net")):
-            rows[:, column] = self.d.pop(name)
-
     def closed_lots(self, average: bool) -> pa.Table:
-        """Built ``CHUNK_ROWS`` pieces at a time, each slice's kernel rows released once built."""
-        rows, times = self.out.pieces, self.out.piece_times
+        return self._in_slices(
+            self.out.pieces, self.out.piece_times, self._closed_lot_batch, average
+        )
+
+    def round_trips(self) -> pa.Table:
+        return self._in_slices(self.out.trips, self.out.trip_times, self._round_trip_batch)
+
+    @staticmethod
+    def _in_slices(
+        rows: np.ndarray, times: np.ndarray, build: Callable[..., pa.Table], *args: object
+    ) -> pa.Table:
+        """A table built ``CHUNK_ROWS`` kernel rows at a time, each slice's rows released once
+        built (they read as zeros after)."""
         batches = []
         for start in range(0, max(len(rows), 1), CHUNK_ROWS):
             stop = min(start + CHUNK_ROWS, len(rows))
-            batches.append(self._closed_lot_batch(rows[start:stop], times[start:stop], average))
+            batches.append(build(rows[start:stop], times[start:stop], *args))
             release_rows(rows, stop)
             release_rows(times, stop)
         return _joined(batches)
@@ -153,11 +177,9 @@ class TableBuilder:
         )
         return _table(columns, schema.CLOSED_LOTS, keys)
 
-    def round_trips(self) -> pa.Table:
-        rows, times = self.out.trips, self.out.trip_times
+    def _round_trip_batch(self, rows: np.ndarray, times: np.ndarray) -> pa.Table:
         keys = rows[:, 0]
         minor = self.p.key["minor"][keys]
-        d = self.d
         columns = _concurrently(
             {
                 "trip_id": lambda: self._trip_ids(keys, rows[:, 10]),
@@ -166,13 +188,13 @@ class TableBuilder:
                 "open_time": lambda: _times(times[:, 0]),
                 "close_time": lambda: _times(times[:, 1]),
                 "max_quantity": lambda: to_decimal(rows[:, 2], self.p.key["qs"][keys]),
-                "entry_price": lambda: to_decimal(d["trip_entry"], kernel.AVERAGE_PLACES),
-                "exit_price": lambda: to_decimal(d["trip_exit"], kernel.AVERAGE_PLACES),
+                "entry_price": lambda: to_decimal(rows[:, 3], kernel.AVERAGE_PLACES),
+                "exit_price": lambda: to_decimal(rows[:, 4], kernel.AVERAGE_PLACES),
                 "fills": lambda: pa.array(rows[:, 5], pa.int64()),
-                "gross_pnl": lambda: to_decimal(d["trip_gross"], minor),
-                "commission": lambda: to_decimal(d["trip_commission"], minor),
-                "financing": lambda: to_decimal(d["trip_financing"], minor),
-                "net_pnl": lambda: to_decimal(d["trip_net"], minor),
+                "gross_pnl": lambda: to_decimal(rows[:, 6], minor),
+                "commission": lambda: to_decimal(rows[:, 7], minor),
+                "financing": lambda: to_decimal(rows[:, 8], minor),
+                "net_pnl": lambda: to_decimal(rows[:, 9], minor),
                 "holding_time": lambda: pa.array(times[:, 1] - times[:, 0], pa.int64()).view(
                     pa.duration("ns")
                 ),
