@@ -105,12 +105,13 @@ class Book:
         """The tables as held (DataFrames or Arrow tables), for writers that take either."""
         return dict(self._tables)
 
-    def arrow_columns(self, name: str, *columns: str) -> list[pa.Array]:
-        """Columns of one table as Arrow arrays, without making a DataFrame of an Arrow table."""
+    def arrow_columns(self, name: str, *columns: str) -> list[pa.ChunkedArray]:
+        """Columns of one table as Arrow arrays (in the chunks they are held in, not copied into
+        one), without making a DataFrame of an Arrow table."""
         table = self._tables[name]
         if isinstance(table, pa.Table):
-            return [table.column(c).combine_chunks() for c in columns]
-        return [_arrow_array(table[c]) for c in columns]
+            return [table.column(c) for c in columns]
+        return [pa.chunked_array([_arrow_array(table[c])]) for c in columns]
 
     def row_count(self, name: str) -> int:
         table = self._tables[name]

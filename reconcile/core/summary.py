@@ -89,7 +89,7 @@ class BookTotals:
         return totals_frame(self.sums, self.rounding)
 
 
-def _sums(currencies: pa.Array, values: pa.Array) -> dict[str, Decimal]:
+def _sums(currencies: pa.ChunkedArray, values: pa.ChunkedArray) -> dict[str, Decimal]:
     """Exact sums per currency, over whole columns, typed so that no sum can wrap: n values of
     p digits sum to at most p + len(str(n)) digits, in decimal128 when that is 38 or fewer, else
     in 76-digit decimal256."""
@@ -97,8 +97,13 @@ def _sums(currencies: pa.Array, values: pa.Array) -> dict[str, Decimal]:
         return {}
     scale = values.type.scale
     narrow = pa.types.is_decimal128(values.type) and values.type.precision + len(str(len(values)))
-    wide = pa.decimal128(38, scale) if narrow and narrow <= 38 else pa.decimal256(76, scale)
-    table = pa.table({"currency": currencies, "value": values.cast(wide)})
+    if narrow and narrow <= 38:
+        # decimal128 lays out every precision alike: the wider type is a view, not a copy.
+        wide = pa.decimal128(38, scale)
+        widened = pa.chunked_array([c.view(wide) for c in values.chunks], wide)
+    else:
+        widened = values.cast(pa.decimal256(76, scale))
+    table = pa.table({"currency": currencies, "value": widened})
     sums = table.group_by("currency", use_threads=False).aggregate([("value", "sum")])
     codes, totals = sums.column("currency").to_pylist(), sums.column("value_sum").to_pylist()
     return {str(c): ZERO + t for c, t in zip(codes, totals, strict=True)}

@@ -9,11 +9,13 @@ from decimal import Decimal
 from pathlib import Path
 
 import pandas as pd
+import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
 import reconcile
 from reconcile.errors import OutputError
+from reconcile.io.writers import tables as writer_tables
 from reconcile.io.writers.atomic import file_set
 from reconcile.io.writers.tables import decimal_text, write_tables
 from tests.builders import concat, fills
@@ -143,3 +145,22 @@ def test_written_files_get_the_usual_permissions(tmp_path: Path) -> None:
     umask = os.umask(0)
     os.umask(umask)
     assert (tmp_path / "t.csv").stat().st_mode & 0o777 == 0o666 & ~umask
+
+
+@pytest.mark.parametrize("rows", [0, 1, 7, 9])
+def test_an_arrow_table_written_a_row_group_at_a_time_is_the_whole_table_written(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, rows: int
+) -> None:
+    monkeypatch.setattr(writer_tables, "ROW_GROUP_ROWS", 3)
+    table = pa.table(
+        {
+            "account": pa.array([f"A{i % 2}" for i in range(rows)], pa.string()),
+            "fill_id": pa.array([f"F{i}" for i in range(rows)], pa.string()),
+            "quantity": pa.array([Decimal(i) / 4 for i in range(rows)], pa.decimal128(6, 2)),
+        }
+    )
+    writer_tables._write_arrow_parquet(table, tmp_path / "sliced.parquet")
+    whole = writer_tables._like_from_pandas(table)
+    options = writer_tables.parquet_options(whole)
+    pq.write_table(whole, tmp_path / "whole.parquet", row_group_size=3, **options)
+    assert (tmp_path / "sliced.parquet").read_bytes() == (tmp_path / "whole.parquet").read_bytes()

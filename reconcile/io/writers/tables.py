@@ -257,15 +257,30 @@ def _csv(frame: AnyTable) -> Any:
 _CSV_OPTIONS = pa_csv.WriteOptions(quoting_style="needed")
 
 
+#: Rows per Parquet row group (pyarrow's own default, stated so slices can match it).
+ROW_GROUP_ROWS = 1 << 20
+
+
 def _parquet(frame: AnyTable) -> Any:
     def write(path: Path) -> None:
         if isinstance(frame, pa.Table):
-            table = _like_from_pandas(frame)
-        else:
-            table = pa.Table.from_pandas(frame, preserve_index=False)
-        pq.write_table(table, path, **parquet_options(table))
+            _write_arrow_parquet(frame, path)
+            return
+        table = pa.Table.from_pandas(frame, preserve_index=False)
+        pq.write_table(table, path, row_group_size=ROW_GROUP_ROWS, **parquet_options(table))
 
     return write
+
+
+def _write_arrow_parquet(table: pa.Table, path: Path) -> None:
+    """The file ``write_table`` would write of the table as from pandas, a row group at a
+    time: only one row group's text is recast (to large strings) at once, not the table's."""
+    schema = _like_from_pandas(table.slice(0, 0)).schema
+    options = parquet_options(table)
+    with pq.ParquetWriter(path, schema, **options) as writer:
+        for start in range(0, max(table.num_rows, 1), ROW_GROUP_ROWS):
+            part = table.slice(start, ROW_GROUP_ROWS).cast(schema)
+            writer.write_table(part, row_group_size=ROW_GROUP_ROWS)
 
 
 def parquet_options(table: pa.Table) -> dict[str, Any]:
