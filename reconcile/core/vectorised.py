@@ -108,7 +108,8 @@ def pair_codes(accounts: np.ndarray, instruments: np.ndarray) -> np.ndarray:
     """One integer per (account, instrument) pair, from each column's codes (see :func:`codes`)."""
     if len(accounts) == 0:
         return np.zeros(0, np.int64)
-    paired: np.ndarray = accounts * (int(instruments.max()) + 1) + instruments
+    # Codes may be 32-bit (dictionary indices): the product is formed in 64 bits.
+    paired: np.ndarray = accounts.astype(np.int64) * (int(instruments.max()) + 1) + instruments
     if int(paired.max()) >= 4 * len(paired):  # sparse: few of many possible pairs occur
         paired = np.unique(paired, return_inverse=True)[1].reshape(-1)
     return paired
@@ -134,10 +135,11 @@ def codes(values: pa.Array) -> np.ndarray | None:
 
 
 def _codes(values: pa.Array) -> np.ndarray:
+    """The dictionary indices as they are (32-bit: half the memory of a 64-bit copy)."""
     encoded = pc.dictionary_encode(values)
     if isinstance(encoded, pa.ChunkedArray):
         encoded = encoded.combine_chunks()
-    return np.asarray(encoded.indices.to_numpy(zero_copy_only=False), dtype=np.int64)
+    return np.asarray(encoded.indices.to_numpy(zero_copy_only=False))
 
 
 def string_series(values: pa.Array) -> pd.Series:

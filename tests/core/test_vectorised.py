@@ -46,5 +46,16 @@ def test_sparse_pair_codes_are_made_dense() -> None:
     assert sorted(vectorised.pair_codes(accounts, instruments).tolist()) == [0, 1]
 
 
+def test_pair_codes_of_32_bit_codes_do_not_wrap() -> None:
+    # With 65,536 instrument codes, account 65,536 x 65,536 is 2^32: formed in 32 bits the
+    # pair (65536, 0) would wrap onto (0, 0).
+    accounts = np.array([0, 65_536, 0], np.int32)
+    instruments = np.array([0, 0, 65_535], np.int32)
+    assert len(set(vectorised.pair_codes(accounts, instruments).tolist())) == 3
+    codes = vectorised.codes(pa.array(["USD", "EUR", "USD"]))
+    assert codes is not None
+    assert codes.tolist() == [0, 1, 0]
+
+
 def test_codes_of_a_column_with_a_missing_value_are_none() -> None:
     assert vectorised.codes(pa.array(["USD", None])) is None
