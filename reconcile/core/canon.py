@@ -534,7 +534,8 @@ def _assemble(
     every = bool(keep.all())
     for name, values in columns.items():
         if isinstance(values, pd.Series):
-            data[name] = values[keep].reset_index(drop=True)
+            data[name] = values.reset_index(drop=True) if every else values[keep]
+            data[name] = data[name].reset_index(drop=True)
             continue
         kept = values if every else values.filter(pa.array(keep))
         if pa.types.is_decimal(values.type):
@@ -542,8 +543,9 @@ def _assemble(
         else:
             data[name] = vectorised.string_series(kept)
     for name in extras:
-        data[name] = frame[name].reset_index(drop=True)[keep].reset_index(drop=True)
-    data[schema.SOURCE_ROW] = rows[keep]
+        extra = frame[name].reset_index(drop=True)
+        data[name] = extra if every else extra[keep].reset_index(drop=True)
+    data[schema.SOURCE_ROW] = rows if every else rows[keep]
     return pd.DataFrame(data)
 
 
