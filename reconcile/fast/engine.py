@@ -82,14 +82,18 @@ def fast_book(
     prepared.sources["fills"].keys = np.zeros(0, np.int64)  # only a replay needed them
     release_unused_memory()
     offsets = np.concatenate([[0], np.cumsum(trips)[:-1]]).astype(np.int64)
-    builder = TableBuilder(prepared, out, derived, offsets)
+    builder = TableBuilder(prepared, out, derived, offsets, merging=reference is not None)
     good = np.flatnonzero(prepared.key["status"] == kernel.OK)
     tables = builder.build_all(good, average)
     if reference is not None:
         tables = _merge(tables, reference, prepared, fallback, offsets)
     del builder, out, derived, prepared  # the kernel's arrays are not needed past this point
+    release_unused_memory()  # what building the tables freed, before the caller writes them
     # The book holds the Arrow tables: a caller that asks for frames gets them converted then.
-    arrow = {name: table.drop_columns([KEY]) for name, table in tables.items()}
+    arrow = {
+        name: table.drop_columns([KEY]) if KEY in table.column_names else table
+        for name, table in tables.items()
+    }
     return Book(**arrow, method=method, commission=convention, rounding=rounding)
 
 

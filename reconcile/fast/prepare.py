@@ -299,9 +299,17 @@ class _Scales:
                 np.maximum(out, significant_places(divisor, scale), out=out)
         return out
 
-    def at(self, source: str, ints: np.ndarray, scale: int, target: np.ndarray) -> np.ndarray:
+    def at(
+        self,
+        source: str,
+        ints: np.ndarray,
+        scale: int,
+        target: np.ndarray,
+        consume: bool = False,
+    ) -> np.ndarray:
+        """``ints`` at each row's key scale; with ``consume`` they may be overwritten."""
         keys = self.keys[source]
-        out, bad = rescale(ints, scale, keys, target)
+        out, bad = rescale(ints, scale, keys, target, in_place=consume)
         self.flag(keys[bad])
         return out
 
@@ -418,10 +426,11 @@ class _Scales:
         scaled = concurrently(
             {
                 "time": lambda: self.sources["fills"].sorted_ints("time"),
-                "sign": lambda: np.where(buys[order], 1, -1).astype(np.int64),
-                "qty": lambda: self.at("fills", qty, q_s, qs),
-                "price": lambda: self.at("fills", price, p_s, ps),
-                "comm": lambda: self.at("fills", comm, c_s, ws),
+                "sign": lambda: np.where(buys[order], 1, -1).astype(np.int64, copy=False),
+                # The unscaled columns are not needed after: rescaled over themselves.
+                "qty": lambda: self.at("fills", qty, q_s, qs, consume=True),
+                "price": lambda: self.at("fills", price, p_s, ps, consume=True),
+                "comm": lambda: self.at("fills", comm, c_s, ws, consume=True),
             }
         )
         return {**scaled, "row": order}

@@ -90,16 +90,23 @@ def significant_places(values: np.ndarray, scale: int) -> np.ndarray:
 
 
 def rescale(
-    values: np.ndarray, scale: int, keys: np.ndarray, key_target: np.ndarray
+    values: np.ndarray,
+    scale: int,
+    keys: np.ndarray,
+    key_target: np.ndarray,
+    *,
+    in_place: bool = False,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Values at ``scale`` moved to the target scale of each row's key: (integers, did not fit).
 
     Moving down must be exact (the target is at least each value's significant places).
     One compiled pass when numba is there (no per-row copy of the targets), else numpy.
+    ``in_place`` writes the result over ``values`` (a caller done with them), when it can.
     """
     if numba_available():
         values = np.ascontiguousarray(values, np.int64)
-        out, bad = np.empty_like(values), np.zeros(len(values), bool)
+        reuse = in_place and values.flags.writeable
+        out, bad = values if reuse else np.empty_like(values), np.zeros(len(values), bool)
         _rescale_rows(
             values,
             scale,

@@ -66,8 +66,10 @@ class TableBuilder:
         out: KernelOutput,
         derived: dict[str, np.ndarray],
         trip_offsets: np.ndarray,
+        merging: bool = True,
     ) -> None:
         self.p = prepared
+        self.merging = merging
         self.out = out
         self.d = derived
         self.trip_offsets = trip_offsets
@@ -113,6 +115,11 @@ class TableBuilder:
             rows = getattr(self.out, rows_name)
             for column, name in columns:
                 rows[:, column] = self.d.pop(name)
+
+    def _merge_keys(self, keys: np.ndarray) -> np.ndarray | None:
+        """Each row's key, as the private ``_key`` column, only for rows to be merged with the
+        reference engine's (an int64 per row otherwise held to no purpose)."""
+        return keys if self.merging else None
 
     def _key_columns(self, keys: np.ndarray) -> dict[str, pa.Array]:
         index = pa.array(keys)
@@ -175,7 +182,7 @@ class TableBuilder:
                 "trip_id": lambda: self._trip_ids(keys, rows[:, 10]),
             }
         )
-        return _table(columns, schema.CLOSED_LOTS, keys)
+        return _table(columns, schema.CLOSED_LOTS, self._merge_keys(keys))
 
     def _round_trip_batch(self, rows: np.ndarray, times: np.ndarray) -> pa.Table:
         keys = rows[:, 0]
@@ -200,7 +207,7 @@ class TableBuilder:
                 ),
             }
         )
-        return _table(columns, schema.ROUND_TRIPS, keys)
+        return _table(columns, schema.ROUND_TRIPS, self._merge_keys(keys))
 
     def open_lots(self, average: bool) -> pa.Table:
         rows = self.out.lots
@@ -221,7 +228,7 @@ class TableBuilder:
                 "trip_id": lambda: self._trip_ids(keys, rows[:, 7]),
             }
         )
-        return _table(columns, schema.OPEN_LOTS, keys)
+        return _table(columns, schema.OPEN_LOTS, self._merge_keys(keys))
 
     def positions(self, keys: np.ndarray) -> pa.Table:
         rows = self.out.keys[keys]
@@ -239,7 +246,7 @@ class TableBuilder:
             "realized_net": to_decimal(self.d["key_net"][keys], minor),
             "open_lots": pa.array(rows[:, 7], pa.int64()),
         }
-        return _table(columns, schema.POSITIONS, keys)
+        return _table(columns, schema.POSITIONS, self._merge_keys(keys))
 
     def unattributed(self) -> pa.Table:
         source = self.p.sources["financing"]
@@ -258,7 +265,7 @@ class TableBuilder:
         else:
             columns["time"] = _times(ints_of(source.columns["time"])[rows])
         columns["reason"] = pa.array([UNATTRIBUTED_REASON] * len(rows), pa.string())
-        return _table(columns, schema.UNATTRIBUTED, keys)
+        return _table(columns, schema.UNATTRIBUTED, self._merge_keys(keys))
 
     def _multiplier(self, keys: np.ndarray) -> pa.Array:
         return to_decimal(self.p.key["mult"][keys], self.p.key["ms"][keys])
@@ -282,8 +289,12 @@ def _times(values: np.ndarray) -> pa.Array:
     return pa.array(np.asarray(values, np.int64), pa.int64()).view(TIME)
 
 
-def _table(columns: dict[str, pa.Array], names: tuple[str, ...], keys: np.ndarray) -> pa.Table:
+def _table(
+    columns: dict[str, pa.Array], names: tuple[str, ...], keys: np.ndarray | None
+) -> pa.Table:
     arrays = [_plain(columns[n]) for n in names]
+    if keys is None:
+        return pa.Table.from_arrays(arrays, names=list(names))
     arrays.append(pa.array(np.asarray(keys, np.int64), pa.int64()))
     return pa.Table.from_arrays(arrays, names=[*names, KEY])
 
