@@ -238,15 +238,14 @@ def _key_currencies(sources: dict[str, Source], key_count: int) -> tuple[pa.Arra
         [np.asarray(c.indices.to_numpy(zero_copy_only=False), np.int64) for c in encoded.chunks]
     )
     keys = np.concatenate([s.keys for s in present])
-    low = np.full(key_count, np.iinfo(np.int64).max)
-    high = np.full(key_count, -1)
-    np.minimum.at(low, keys, codes)
-    np.maximum.at(high, keys, codes)
-    if np.any(low != high):
+    # Any one row's currency stands for its key; every row agrees with it only if all are equal.
+    chosen = np.zeros(key_count, np.int64)  # every key has rows in some source
+    chosen[keys] = codes
+    if not np.array_equal(chosen[keys], codes):
         raise NeedsReference("a key with two currencies")
     dictionary = encoded.chunk(0).dictionary
     places = np.array([minor_unit(str(c)) or 0 for c in dictionary.to_pylist()], dtype=np.int64)
-    return dictionary.take(pa.array(low)).cast(pa.string()), places[low]
+    return dictionary.take(pa.array(chosen)).cast(pa.string()), places[chosen]
 
 
 OPENING_DECIMALS = ("quantity", "open_price", "commission", "financing", "multiplier")
@@ -384,22 +383,16 @@ class _Scales:
         ms: np.ndarray,
     ) -> np.ndarray:
         """Each key's multiplier at its scale; every fill and carried lot of a key must agree."""
-        values = []
-        keys = []
-        if len(f_mult):
-            values.append(self.at("fills", f_mult, fm_s, ms))
-            keys.append(self.keys["fills"])
-        if len(o_mult[0]):
-            values.append(self.at("opening", o_mult[0], o_mult[1], ms))
-            keys.append(self.keys["opening"])
         mult = np.ones(self.key_count, np.int64)
-        if not values:
-            return mult
-        all_values, all_keys = np.concatenate(values), np.concatenate(keys)
         low = np.full(self.key_count, np.iinfo(np.int64).max)
         high = np.full(self.key_count, np.iinfo(np.int64).min)
-        np.minimum.at(low, all_keys, all_values)
-        np.maximum.at(high, all_keys, all_values)
+        for source, (values, scale) in (("fills", (f_mult, fm_s)), ("opening", o_mult)):
+            if len(values):
+                # Rows are in key order: each key's least and greatest over its segment.
+                scaled = self.at(source, values, scale, ms)
+                keys = self.keys[source]
+                np.minimum(low, _segment_reduce(np.minimum, scaled, keys, low), out=low)
+                np.maximum(high, _segment_reduce(np.maximum, scaled, keys, high), out=high)
         seen = high >= low
         if np.any(low[seen] != high[seen]):
             raise NeedsReference("a key with two multipliers")
@@ -497,6 +490,16 @@ def _segments(keys: np.ndarray, key_count: int) -> tuple[np.ndarray, np.ndarray]
     present = np.flatnonzero(counts)
     starts = (np.cumsum(counts) - counts)[present]
     return starts, present
+
+
+def _segment_reduce(
+    reduce: np.ufunc, values: np.ndarray, keys: np.ndarray, absent: np.ndarray
+) -> np.ndarray:
+    """``reduce`` over each key's rows (rows in key order); ``absent`` for a key with none."""
+    out = absent.copy()
+    starts, present = _segments(keys, len(absent))
+    out[present] = reduce.reduceat(values, starts)
+    return out
 
 
 def _segment_max(values: np.ndarray, keys: np.ndarray, key_count: int) -> np.ndarray:

@@ -24,6 +24,7 @@ from reconcile.core.canon import canonical_fills, canonical_financing, canonical
 from reconcile.errors import ValidationError
 from reconcile.fast import tables as fast_tables
 from reconcile.fast.engine import fast_book
+from reconcile.fast.prepare import NeedsReference
 from reconcile.io.writers.tables import write_tables
 from tests.builders import concat, fills, financing, rows_of
 from tests.strategies import financing_for, histories
@@ -148,6 +149,43 @@ def test_a_key_too_large_for_64_bits_is_replayed_by_the_reference_engine(method:
     actual = fast_book(canon, None, None, method, "at-close", "half-even")
     assert_same_book(expected, actual)
     assert actual.round_trips["trip_id"].tolist() == expected.round_trips["trip_id"].tolist()
+
+
+def _carried_with_multiplier(multiplier: str) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Fills of a key with multiplier 10, and a lot of that key carried in at ``multiplier``."""
+    first = fills([("b1", "buy", 2, "10", "2026-11-02T10:00:00Z")], multiplier="10")
+    later = fills([("s1", "sell", 1, "11", "2026-11-03T10:00:00Z")], multiplier="10")
+    lots = reconcile.match(first, engine="reference").open_lots
+    carried = canonical_opening(lots.assign(multiplier=[multiplier] * len(lots)))
+    return canonical_fills(later), carried
+
+
+def test_a_carried_lot_with_another_multiplier_is_left_to_the_reference_engine() -> None:
+    later, carried = _carried_with_multiplier("50")
+    with pytest.raises(NeedsReference, match="two multipliers"):
+        fast_book(later, None, carried, "fifo", "at-close", "half-even")
+
+
+@pytest.mark.parametrize(("currency", "left_to_reference"), [("EUR", True), ("USD", False)])
+def test_financing_in_another_currency_than_its_fills_is_left_to_the_reference_engine(
+    currency: str, left_to_reference: bool
+) -> None:
+    held = canonical_fills(fills([("b1", "buy", 2, "10", "2026-11-02T10:00:00Z")]))
+    charge = canonical_financing(
+        financing([("e1", "2026-11-02T22:00:00Z", "-1.25")], currency=currency)
+    )
+    if left_to_reference:
+        with pytest.raises(NeedsReference, match="two currencies"):
+            fast_book(held, charge, None, "fifo", "at-close", "half-even")
+    else:
+        expected = reconcile.match(held, charge, engine="reference")
+        assert_same_book(expected, fast_book(held, charge, None, "fifo", "at-close", "half-even"))
+
+
+def test_a_carried_lot_with_the_multiplier_written_otherwise_is_matched() -> None:
+    later, carried = _carried_with_multiplier("10.0")
+    expected = reconcile.match(later, opening=carried, engine="reference")
+    assert_same_book(expected, fast_book(later, None, carried, "fifo", "at-close", "half-even"))
 
 
 @given(data=inputs(), method=METHODS, convention=CONVENTIONS)
