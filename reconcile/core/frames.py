@@ -16,6 +16,9 @@ from reconcile.money import places_of
 #: The most digits an exact decimal column holds (Arrow's decimal256).
 MAX_DECIMAL_DIGITS = 76
 
+#: One match's canonical input frames: fills, financing events, carried-in open lots.
+InputFrames = tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]
+
 
 def decimal_array(values: Sequence[Decimal | None], column: str = "decimal") -> pa.Array:
     """An Arrow decimal array wide enough for every value, at the largest scale among them."""

@@ -12,6 +12,7 @@ from reconcile import schema
 from reconcile.core.book import Book, build_book
 from reconcile.core.canon import canonical_fills, canonical_financing, canonical_opening
 from reconcile.core.engine import Progress, replay
+from reconcile.core.frames import InputFrames
 from reconcile.core.period import utc_text
 from reconcile.errors import ConfigError, Problem, raise_if_problems
 from reconcile.money import ROUNDING_MODES, Rounding, exact_arithmetic
@@ -85,9 +86,7 @@ class HeldFrames:
     financing: pd.DataFrame | None = None
     opening: pd.DataFrame | None = None
     releasable: bool = False
-    reread: Callable[[], tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]] | None = (
-        None
-    )
+    reread: Callable[[], InputFrames] | None = None
 
     def rows(self) -> int:
         return sum(len(f) for f in (self.fills, self.financing, self.opening) if f is not None)

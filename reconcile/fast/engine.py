@@ -15,7 +15,7 @@ import pyarrow as pa
 
 from reconcile.core.book import Book, build_book
 from reconcile.core.engine import replay
-from reconcile.core.frames import release_unused_memory
+from reconcile.core.frames import InputFrames, release_unused_memory
 from reconcile.errors import InputError
 from reconcile.fast import kernel
 from reconcile.fast.finish import finish
@@ -25,9 +25,6 @@ from reconcile.fast.tables import KEY, KernelOutput, TableBuilder
 from reconcile.money import Rounding
 
 PIECE_COLUMNS, TRIP_COLUMNS, LOT_COLUMNS, KEY_COLUMNS = 12, 12, 9, 9
-
-
-Frames = tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]
 
 
 def fast_book(
@@ -40,7 +37,7 @@ def fast_book(
     *,
     compiled: bool = True,
     release: Callable[[], None] | None = None,
-    reread: Callable[[], Frames] | None = None,
+    reread: Callable[[], InputFrames] | None = None,
 ) -> Book:
     """Match canonical inputs with the kernel; may raise ``prepare.NeedsReference``.
 
@@ -50,7 +47,7 @@ def fast_book(
     frames are read again only if a key overflows later, which real books almost never do).
     """
     prepared = prepare(fills, financing, opening, method)
-    frames: Frames | None = (fills, financing, opening)
+    frames: InputFrames | None = (fills, financing, opening)
     del fills, financing, opening
     if release is not None and reread is not None and _every_key_fits(prepared):
         frames = None
@@ -101,7 +98,7 @@ def _every_key_fits(prepared: Prepared) -> bool:
     return not bool((prepared.key["status"] != kernel.OK).any())
 
 
-def _same_frames(frames: Frames, prepared: Prepared) -> Frames:
+def _same_frames(frames: InputFrames, prepared: Prepared) -> InputFrames:
     """Frames read again for a key that overflowed, checked to be the ones first matched."""
     ids = prepared.sources["fills"].columns.get("fill_id")
     same = all(

@@ -496,24 +496,18 @@ def _segment_reduce(
     reduce: np.ufunc, values: np.ndarray, keys: np.ndarray, absent: np.ndarray
 ) -> np.ndarray:
     """``reduce`` over each key's rows (rows in key order); ``absent`` for a key with none."""
-    out = absent.copy()
+    out = absent.copy()  # the caller's array is left as it is
     starts, present = _segments(keys, len(absent))
     out[present] = reduce.reduceat(values, starts)
     return out
 
 
 def _segment_max(values: np.ndarray, keys: np.ndarray, key_count: int) -> np.ndarray:
-    out = np.zeros(key_count, np.int64)
-    starts, present = _segments(keys, key_count)
-    out[present] = np.maximum.reduceat(values, starts)
-    return out
+    return _segment_reduce(np.maximum, values, keys, np.zeros(key_count, np.int64))
 
 
 def _segment_gcd(values: np.ndarray, keys: np.ndarray, key_count: int) -> np.ndarray:
-    out = np.zeros(key_count, np.int64)
-    starts, present = _segments(keys, key_count)
-    out[present] = np.gcd.reduceat(values, starts)
-    return out
+    return _segment_reduce(np.gcd, values, keys, np.zeros(key_count, np.int64))
 
 
 def _none() -> np.ndarray:

@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from reconcile.core.book import Book
+from reconcile.core.frames import InputFrames
 from reconcile.core.matching import HeldFrames, match_canonical, match_held
 from reconcile.core.summary import BookTotals
 from reconcile.errors import EXIT_FOUND, EXIT_OK, ConfigError, InputError
@@ -199,7 +200,7 @@ def read_and_match(read: Callable[[], Inputs], **options: Any) -> tuple[Book, In
         return match_held(held, progress=progress, **options), record
 
 
-def _frames(inputs: Inputs) -> tuple[pd.DataFrame, pd.DataFrame | None, pd.DataFrame | None]:
+def _frames(inputs: Inputs) -> InputFrames:
     return inputs.fills, inputs.financing, inputs.opening
 
 
