@@ -45,6 +45,9 @@ RECONCILE = Path(sys.executable).with_name("reconcile")
 
 
 def main() -> None:
+    if {"-h", "--help"} & set(sys.argv[1:]):
+        print(__doc__)
+        return
     quick = "--quick" in sys.argv
     counts = [int(float(a)) for a in sys.argv[1:] if a != "--quick"] or [1_000_000, 10_000_000]
     load = os.getloadavg()[0]
