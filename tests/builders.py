@@ -89,3 +89,31 @@ def rows_of(frame: pd.DataFrame, drop: Sequence[str] = ()) -> list[tuple[Any, ..
     kept = frame.drop(columns=list(drop)).reset_index(drop=True)
     columns = [kept[c].astype(object).where(kept[c].notna(), None).tolist() for c in kept.columns]
     return list(zip(*columns, strict=True))
+
+
+#: A key whose numbers fit their scales but whose gross P&L leaves 64 bits in the fast path's
+#: kernel (12-digit quantities at 10^5 prices: about 1.2e29 at scale), beside two that fit.
+OVERFLOWING_FILLS = concat(
+    fills(
+        [
+            ("b1", "buy", "123456789012.345", "98765.4321", "2026-11-02T10:00:00Z", "1.5"),
+            ("s1", "sell", "100000000000.001", "98766.4321", "2026-11-03T10:00:00Z", "1.25"),
+        ],
+        instrument="HUGE",
+    ),
+    fills(
+        [
+            ("b2", "buy", 3, "10.00", "2026-11-02T11:00:00Z", "0.10"),
+            ("s2", "sell", 1, "11.00", "2026-11-03T11:00:00Z", "0.10"),
+            ("s3", "sell", 2, "12.00", "2026-11-04T11:00:00Z", "0.10"),
+        ],
+        instrument="SMALL",
+    ),
+    fills(
+        [
+            ("b3", "buy", 5, "20", "2026-11-02T12:00:00Z"),
+            ("s4", "sell", 6, "21", "2026-11-03T12:00:00Z"),
+        ],
+        instrument="ZED",
+    ),
+)

@@ -534,8 +534,7 @@ def _assemble(
     every = bool(keep.all())
     for name, values in columns.items():
         if isinstance(values, pd.Series):
-            data[name] = values.reset_index(drop=True) if every else values[keep]
-            data[name] = data[name].reset_index(drop=True)
+            data[name] = (values if every else values[keep]).reset_index(drop=True)
             continue
         kept = values if every else values.filter(pa.array(keep))
         if pa.types.is_decimal(values.type):
@@ -544,7 +543,7 @@ def _assemble(
             data[name] = vectorised.string_series(kept)
     for name in extras:
         extra = frame[name].reset_index(drop=True)
-        data[name] = extra if every else extra[keep].reset_index(drop=True)
+        data[name] = (extra if every else extra[keep]).reset_index(drop=True)
     data[schema.SOURCE_ROW] = rows if every else rows[keep]
     return pd.DataFrame(data)
 

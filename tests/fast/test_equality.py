@@ -26,7 +26,8 @@ from reconcile.fast import tables as fast_tables
 from reconcile.fast.engine import fast_book
 from reconcile.fast.prepare import NeedsReference
 from reconcile.io.writers.tables import write_tables
-from tests.builders import concat, fills, financing, rows_of
+from tests.builders import OVERFLOWING_FILLS as BIG
+from tests.builders import fills, financing, rows_of
 from tests.strategies import financing_for, histories
 
 METHODS = st.sampled_from(["fifo", "lifo", "hifo", "average"])
@@ -113,32 +114,6 @@ def test_fast_path_equals_the_reference_with_carried_lots(
         later, canon_events, carried, method, convention, "half-even", compiled=compiled
     )
     assert_same_book(expected, actual)
-
-
-BIG = concat(
-    fills(
-        [
-            ("b1", "buy", "123456789012.345", "98765.4321", "2026-11-02T10:00:00Z", "1.5"),
-            ("s1", "sell", "100000000000.001", "98766.4321", "2026-11-03T10:00:00Z", "1.25"),
-        ],
-        instrument="HUGE",
-    ),
-    fills(
-        [
-            ("b2", "buy", 3, "10.00", "2026-11-02T11:00:00Z", "0.10"),
-            ("s2", "sell", 1, "11.00", "2026-11-03T11:00:00Z", "0.10"),
-            ("s3", "sell", 2, "12.00", "2026-11-04T11:00:00Z", "0.10"),
-        ],
-        instrument="SMALL",
-    ),
-    fills(
-        [
-            ("b3", "buy", 5, "20", "2026-11-02T12:00:00Z"),
-            ("s4", "sell", 6, "21", "2026-11-03T12:00:00Z"),
-        ],
-        instrument="ZED",
-    ),
-)
 
 
 @pytest.mark.parametrize("method", ["fifo", "average"])

@@ -20,7 +20,7 @@ from reconcile.core.matching import match_canonical
 from reconcile.errors import InputError
 from reconcile.fast import tables
 from reconcile.io import session
-from tests.builders import rows_of
+from tests.builders import OVERFLOWING_FILLS, rows_of
 
 SAMPLE = Path(__file__).parents[2] / "sample_data" / "fills.csv"
 
@@ -91,9 +91,7 @@ def test_a_read_column_is_one_array_that_validation_shares(tmp_path: Path) -> No
 def _overflowing_fills(path: Path) -> Path:
     """A key whose numbers fit their scales but whose gross P&L leaves 64 bits in the kernel
     (12-digit quantities at 10^5 prices), beside an ordinary key."""
-    from tests.fast.test_equality import BIG
-
-    BIG.to_csv(path, index=False)
+    OVERFLOWING_FILLS.to_csv(path, index=False)
     return path
 
 
