@@ -126,16 +126,35 @@ def _warm_up() -> None:
 
 
 def _run(args: list[str]) -> tuple[float, int]:
-    """Wall time and peak resident memory (bytes) of one ``reconcile match`` process."""
-    started = time.perf_counter()
-    process = subprocess.Popen(
-        [str(RECONCILE), "match", *args], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE
+    """Wall time and peak resident memory (bytes) of one ``reconcile match`` process.
+
+    A child's ``ru_maxrss`` starts from the high-water mark of the process it was forked from
+    (Linux carries it across the exec), so a command spawned from this process, which may hold
+    gigabytes, would report this process's peak as its own. A small launcher forks the command
+    instead and reports its time and peak.
+    """
+    done = subprocess.run(
+        [sys.executable, "-c", _LAUNCHER, str(RECONCILE), "match", *args],
+        capture_output=True,
+        text=True,
     )
-    _, status, usage = os.wait4(process.pid, 0)
-    wall = time.perf_counter() - started
-    if status != 0:
-        raise SystemExit(f"reconcile match failed: {process.stderr.read().decode()[-2000:]}")  # type: ignore[union-attr]
-    return wall, usage.ru_maxrss * 1024
+    if done.returncode != 0:
+        raise SystemExit(f"reconcile match failed: {done.stderr[-2000:]}")
+    wall, peak = done.stdout.split()[-2:]
+    return float(wall), int(peak)
+
+
+_LAUNCHER = """
+import os, sys, time
+started = time.perf_counter()
+pid = os.fork()
+if pid == 0:
+    os.dup2(os.open(os.devnull, os.O_WRONLY), 1)
+    os.execv(sys.argv[1], sys.argv[1:])
+_, status, usage = os.wait4(pid, 0)
+print(time.perf_counter() - started, usage.ru_maxrss * 1024)
+sys.exit(os.waitstatus_to_exitcode(status))
+"""
 
 
 def _fresh_parse(path: Path) -> float:

@@ -58,7 +58,7 @@ def main() -> None:
         from reconcile.io.readers import delimited, sources
 
     for module, name in (
-        (delimited, "read_decimal_csv"),
+        (delimited, "read_typed_csv"),
         (engine, "prepare"),
         (engine, "run_kernel"),
         (engine, "finish"),

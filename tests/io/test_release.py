@@ -78,9 +78,10 @@ def test_a_read_column_is_one_array_that_validation_shares(tmp_path: Path) -> No
     checks take it as it is instead of copying it beside the frame that holds it."""
     from reconcile.core.canon import canonical_fills
     from reconcile.io.readers.delimited import read_delimited
+    from reconcile.io.readers.typed_csv import TypedColumns
 
     path = _big_fills_csv(tmp_path / "fills.csv", 60_000)  # several of the reader's 1 MB blocks
-    frame = read_delimited(path, decimals=("quantity", "price", "commission"))
+    frame = read_delimited(path, typed=TypedColumns(decimals=("quantity", "price", "commission")))
     ids = frame["fill_id"].array._pa_array  # the pandas column's Arrow storage
     assert ids.num_chunks == 1
     canon = canonical_fills(frame)

@@ -8,11 +8,13 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 import reconcile
 from reconcile.core.canon import canonical_fills
 from reconcile.errors import ValidationError
+from reconcile.io.readers.sources import FILL_TYPED
 from reconcile.io.readers.tabular import read_table
 from tests.builders import rows_of
 
@@ -38,6 +40,39 @@ def test_typed_read_equals_the_text_path(tmp_path: Path) -> None:
     text = canonical_fills(read_table(path), source=str(path))
     assert rows_of(typed) == rows_of(text)
     assert str(typed["quantity"].dtype) == str(text["quantity"].dtype)
+    assert str(typed["time"].dtype) == str(text["time"].dtype)
+
+
+def test_times_with_offsets_are_parsed_by_the_reader(tmp_path: Path) -> None:
+    raw = read_table(_write(tmp_path, ROWS), typed=FILL_TYPED)
+    assert isinstance(raw["time"].dtype, pd.DatetimeTZDtype)
+    assert str(raw["time"].iloc[1]) == "2026-11-02 14:30:00.125000+00:00"
+
+
+@pytest.mark.parametrize(
+    "odd_time",
+    [
+        "2026-11-05T10:00:00",  # no offset: canon places it with --timezone
+        " 2026-11-05T10:00:00Z",  # spaces: canon trims them
+        "2026-11-05T10Z",  # an hour without minutes, which canon refuses
+        "",
+    ],
+)
+def test_a_time_the_reader_cannot_place_leaves_the_column_as_text(
+    tmp_path: Path, odd_time: str
+) -> None:
+    path = _write(tmp_path, [*ROWS, f"F6,ACC1,KSTL,buy,5,100,{odd_time},0,USD,50"])
+    raw = read_table(path, typed=FILL_TYPED)
+    assert raw["time"].iloc[-1] == odd_time
+    assert str(raw["quantity"].dtype).startswith("decimal128")  # the decimals are still typed
+
+
+def test_local_times_read_the_same_either_way(tmp_path: Path) -> None:
+    path = _write(tmp_path, [*ROWS, "F6,ACC1,KSTL,buy,5,100,2026-11-05T10:00:00,0,USD,50"])
+    typed = reconcile.read_fills(path, timezone="America/New_York")
+    text = canonical_fills(read_table(path), source=str(path), timezone="America/New_York")
+    assert rows_of(typed) == rows_of(text)
+    assert str(typed["time"].iloc[-1]) == "2026-11-05 15:00:00+00:00"
 
 
 @pytest.mark.parametrize(
@@ -50,6 +85,14 @@ def test_typed_read_equals_the_text_path(tmp_path: Path) -> None:
         (
             "F6,ACC1,KSTL,buy, 5 ,1e2,2026-11-05T10Z,0,USD,50",
             "row 7, column time: expected an ISO 8601 date-time",
+        ),
+        (
+            "F6,ACC1,KSTL,buy,5,100,2026-11-05T10Z,0,USD,50",
+            "row 7, column time: expected an ISO 8601 date-time",
+        ),
+        (
+            "F6,ACC1,KSTL,buy,5,100,2026-11-05T10:00:00,0,USD,50",
+            "row 7, column time: expected a UTC offset",
         ),
     ],
 )

@@ -11,7 +11,6 @@ from __future__ import annotations
 import codecs
 import csv
 import io
-from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -22,7 +21,7 @@ import pyarrow.csv as pa_csv
 
 from reconcile.errors import InputError, Problem, SourceEmptyError, ValidationError
 from reconcile.io.readers.arrow_frame import contiguous_frame
-from reconcile.io.readers.typed_csv import read_decimal_csv
+from reconcile.io.readers.typed_csv import UNTYPED, TypedColumns, read_typed_csv
 from reconcile.schema import SOURCE_ROW
 
 #: Files up to this size are re-read to number rows by line when records span lines.
@@ -49,19 +48,20 @@ class Dialect:
 
 
 def read_delimited(
-    path: Path, dialect: Dialect = Dialect(), decimals: Sequence[str] = ()
+    path: Path, dialect: Dialect = Dialect(), typed: TypedColumns = UNTYPED
 ) -> pd.DataFrame:
     """The file's rows as text columns plus ``source_row`` (the line each record starts on).
 
-    In a plain UTF-8, comma-separated file, columns named in ``decimals`` may come back as exact
-    Arrow decimals parsed by pyarrow itself (see :mod:`reconcile.io.readers.typed_csv`).
+    In a plain UTF-8, comma-separated file, columns named in ``typed`` may come back as exact
+    Arrow decimals and UTC times parsed by pyarrow itself (see
+    :mod:`reconcile.io.readers.typed_csv`).
     """
     header = _csv_header(path, _head(path, dialect), dialect)
-    if decimals and dialect == Dialect():
-        typed = read_decimal_csv(path, header, decimals)
-        if typed is not None:
-            typed[SOURCE_ROW] = _record_lines(path, len(typed), dialect)
-            return typed
+    if typed.decimals and dialect == Dialect():
+        frame = read_typed_csv(path, header, typed)
+        if frame is not None:
+            frame[SOURCE_ROW] = _record_lines(path, len(frame), dialect)
+            return frame
     types = {name: pa.string() for name in header}
     try:
         table = pa_csv.read_csv(

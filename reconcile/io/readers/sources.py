@@ -28,6 +28,7 @@ from reconcile.io.readers.jsonl import RAW_LINES
 from reconcile.io.readers.mapping import apply_profile
 from reconcile.io.readers.profiles import Profile, load_profile
 from reconcile.io.readers.tabular import check_exists, detect_format, read_table
+from reconcile.io.readers.typed_csv import UNTYPED, TypedColumns
 
 ProfileLike = Profile | Path | str | None
 REJECT_COLUMNS = ("source", "source_row", "reason", "problems")
@@ -80,7 +81,7 @@ def read_source(
     if kind not in _CANON:
         raise ConfigError(f"kind: expected one of {', '.join(_CANON)}, found {kind!r}")
 
-    def attempt(decimals: Sequence[str] = ()) -> Source:
+    def attempt(typed: TypedColumns = UNTYPED) -> Source:
         return _read_source(
             Path(path),
             kind,
@@ -90,16 +91,16 @@ def read_source(
             dedupe=dedupe,
             keep_rejects=keep_rejects,
             fix_lenient=fix_lenient,
-            decimals=decimals,
+            typed=typed,
         )
 
     source = None
     if kind == "fills" and profile is None and not keep_rejects:
-        # Clean canonical fills have their decimals parsed by the CSV reader itself. Problems,
+        # Clean canonical fills have their decimals and times parsed by the CSV reader. Problems,
         # and repeated rows (compared as written: 5 and 5.0 are different text), are judged by
         # the text path, so every message shows each value as the file writes it.
         try:
-            typed = attempt(FILL_DECIMALS)
+            typed = attempt(FILL_TYPED)
         except ValidationError:
             pass
         else:
@@ -111,8 +112,9 @@ def read_source(
     return source
 
 
-#: Fill columns a plain CSV can have parsed as decimals by the reader.
+#: Fill columns a plain CSV can have parsed by the reader: decimals, and the time.
 FILL_DECIMALS = ("quantity", "price", "commission", "multiplier")
+FILL_TYPED = TypedColumns(decimals=FILL_DECIMALS, times=("time",))
 
 
 def _has_decimals(frame: pd.DataFrame) -> bool:
@@ -129,14 +131,14 @@ def _read_source(
     dedupe: bool,
     keep_rejects: bool,
     fix_lenient: bool,
-    decimals: Sequence[str] = (),
+    typed: TypedColumns = UNTYPED,
 ) -> Source:
     chosen = as_profile(profile)
     if chosen is not None and chosen.kind != kind:
         raise ConfigError(f"profile for {chosen.kind} given for the {kind} input {path}")
     check_exists(path)
     fmt = detect_format(path, input_format or (chosen.source.format if chosen else None))
-    raw = _read_raw(path, fmt, kind, chosen, fix_lenient, decimals)
+    raw = _read_raw(path, fmt, kind, chosen, fix_lenient, typed)
     zone = timezone or (chosen.time.timezone if chosen else None)
     source = str(path)
     pre = _shown(raw.problems, raw.shown)
@@ -169,7 +171,7 @@ def _read_raw(
     kind: str,
     profile: Profile | None,
     lenient: bool,
-    decimals: Sequence[str] = (),
+    typed: TypedColumns = UNTYPED,
 ) -> _Raw:
     if fmt == "fix":
         if kind != "fills":
@@ -205,7 +207,7 @@ def _read_raw(
         places=places,
         decimal_mark=profile.numbers.decimal if profile else ".",
         header_row=source.header_row if source else None,
-        decimals=decimals,
+        typed=typed,
     )
     problems: list[Problem] = list(frame.attrs.pop(PROBLEMS, []))
     raw_lines: dict[int, str] = dict(frame.attrs.pop(RAW_LINES, {}))

@@ -8,7 +8,6 @@ FIX logs are not rows of columns: :mod:`reconcile.io.readers.fix` reads them.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from pathlib import Path
 
 import pandas as pd
@@ -18,6 +17,7 @@ import pyarrow.parquet as pq
 from reconcile.errors import InputError, SourceEmptyError, SourceNotFoundError
 from reconcile.io.readers.arrow_frame import contiguous_frame
 from reconcile.io.readers.delimited import Dialect, read_delimited
+from reconcile.io.readers.typed_csv import UNTYPED, TypedColumns
 
 FORMATS = ("csv", "tsv", "parquet", "excel", "jsonl", "fix")
 _SUFFIXES = {
@@ -64,14 +64,14 @@ def read_table(
     places: dict[str, int] | None = None,
     decimal_mark: str = ".",
     header_row: int | None = None,
-    decimals: Sequence[str] = (),
+    typed: TypedColumns = UNTYPED,
 ) -> pd.DataFrame:
     """The file's rows as a DataFrame of raw values (text but for typed Parquet columns).
 
     ``dialect`` says how delimited text is written; ``sheet``, ``places`` (decimal places of the
     numeric columns) and ``decimal_mark`` are for Excel, whose numeric cells are doubles. Columns
-    named in ``decimals`` may come back from a plain CSV as exact Arrow decimals (a shortcut for
-    large, clean files; see :mod:`reconcile.io.readers.typed_csv`).
+    named in ``typed`` may come back from a plain CSV as exact Arrow decimals and UTC times (a
+    shortcut for large, clean files; see :mod:`reconcile.io.readers.typed_csv`).
     """
     path = Path(path)
     check_exists(path)
@@ -97,7 +97,7 @@ def read_table(
     dialect = dialect or Dialect()
     if fmt == "tsv" and dialect.delimiter == ",":
         dialect = Dialect("\t", dialect.encoding, dialect.header_row)
-    return read_delimited(path, dialect, decimals)
+    return read_delimited(path, dialect, typed)
 
 
 def check_exists(path: Path) -> None:

@@ -2,12 +2,16 @@
 
 For large, clean files this saves a pass over the text of every amount. It is only a shortcut:
 any cell Arrow's decimal parser refuses (or any oddity such as spaces around a number) returns None,
-and the caller reads the file as text, whose checks word every problem.
+and the caller reads the file as text, whose checks word every problem. Time columns are parsed
+here too, a block at a time, by the same rule canon's own shortcut applies
+(:func:`reconcile.core.vectorised.iso_times`): a column it refuses stays text for canon, and no
+column of ten million times is first copied into one array of text.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
@@ -15,15 +19,29 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pa_csv
 
+from reconcile.core.vectorised import iso_times
 from reconcile.io.readers.arrow_frame import contiguous_frame
 
 #: Bytes read as text first, to learn the places each decimal column is written with.
 SAMPLE_BYTES = 1 << 22
 
 
-def read_decimal_csv(path: Path, header: list[str], decimals: Sequence[str]) -> pd.DataFrame | None:
-    """The file with ``decimals`` as exact Arrow decimals and every other column as text."""
-    wanted = [name for name in header if name.strip() in decimals]
+@dataclass(frozen=True)
+class TypedColumns:
+    """Columns a plain CSV may have parsed by the reader: exact decimals, and UTC times."""
+
+    decimals: Sequence[str] = ()
+    times: Sequence[str] = ()
+
+
+#: Nothing typed: every column read as text.
+UNTYPED = TypedColumns()
+
+
+def read_typed_csv(path: Path, header: list[str], typed: TypedColumns) -> pd.DataFrame | None:
+    """The file with ``typed.decimals`` as exact Arrow decimals, ``typed.times`` as UTC times
+    where every value carries its offset, and every other column as text."""
+    wanted = [name for name in header if name.strip() in typed.decimals]
     places = _sampled_places(path, header, wanted)
     if places is None:
         return None
@@ -46,7 +64,23 @@ def read_decimal_csv(path: Path, header: list[str], decimals: Sequence[str]) -> 
     for index, field in enumerate(table.schema):
         if pa.types.is_decimal(field.type):
             table = table.set_column(index, field.name, _tight(table.column(index)))
+        elif field.name.strip() in typed.times:
+            table = _with_times(table, index)
     return contiguous_frame(table)
+
+
+def _with_times(table: pa.Table, index: int) -> pa.Table:
+    """The table with column ``index`` as UTC times, if every block of its text parses."""
+    blocks = []
+    for chunk in table.column(index).chunks:
+        times = iso_times(chunk)
+        if times is None:
+            return table
+        blocks.append(times)
+    if not blocks:
+        return table
+    column = pa.chunked_array(blocks, blocks[0].type)
+    return table.set_column(index, table.schema.field(index).name, column)
 
 
 def _sampled_places(path: Path, header: list[str], wanted: list[str]) -> dict[str, int] | None:
