@@ -3,12 +3,14 @@
     python benchmarks/stages.py PATH [--format parquet|csv]
 
 Runs the steps the command runs (read and validate, match, write, summary) and prints, after each,
-its wall time and the process's resident memory and peak so far (from /proc, so Arrow's buffers
-count too). Inside the match it also times the fast path's own steps. Figures, not tests.
+its wall time, CPU time (user and system, all threads) and the process's resident memory and
+peak so far (from /proc, so Arrow's buffers count too). Inside the match it also times the fast
+path's own steps. Figures, not tests.
 """
 
 from __future__ import annotations
 
+import resource
 import sys
 import tempfile
 import time
@@ -28,13 +30,23 @@ def _memory() -> tuple[float, float]:
     return (int(fields["VmRSS"].split()[0]) / 2**20, int(fields["VmHWM"].split()[0]) / 2**20)
 
 
+def _cpu() -> tuple[float, float]:
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    return usage.ru_utime, usage.ru_stime
+
+
 @contextmanager
 def stage(name: str) -> Iterator[None]:
-    began = time.perf_counter()
+    began, (user, system) = time.perf_counter(), _cpu()
     yield
     rss, peak = _memory()
     took = time.perf_counter() - began
-    print(f"{name:34} {took:7.2f} s   rss {rss:5.2f} GiB   peak {peak:5.2f} GiB", flush=True)
+    user, system = (now - then for now, then in zip(_cpu(), (user, system), strict=True))
+    print(
+        f"{name:34} {took:6.2f} s (cpu {user:5.2f} + sys {system:5.2f})   rss {rss:5.2f} GiB   "
+        f"peak {peak:5.2f} GiB",
+        flush=True,
+    )
 
 
 def _timed(module: Any, name: str) -> None:
@@ -42,7 +54,7 @@ def _timed(module: Any, name: str) -> None:
     original: Callable[..., Any] = getattr(module, name)
 
     def wrapper(*args: Any, **kwargs: Any) -> Any:
-        with stage(f"  {module.__name__.rsplit('.', 1)[-1]}.{name}"):
+        with stage(f"  {module.__name__.rsplit('.', 1)[-1]}.{name}"):  # a module or a class
             return original(*args, **kwargs)
 
     setattr(module, name, wrapper)
@@ -53,7 +65,7 @@ def main() -> None:
     fmt = sys.argv[sys.argv.index("--format") + 1] if "--format" in sys.argv else "parquet"
     with stage("imports"):
         from reconcile.core import canon
-        from reconcile.fast import engine
+        from reconcile.fast import engine, tables
         from reconcile.io import session
         from reconcile.io.readers import delimited, sources
 
@@ -62,7 +74,7 @@ def main() -> None:
         (engine, "prepare"),
         (engine, "run_kernel"),
         (engine, "finish"),
-        (engine, "TableBuilder"),
+        (tables.TableBuilder, "build_all"),
     ):
         _timed(module, name)
     _timed(canon, "canonical_fills")

@@ -197,6 +197,12 @@ class _Checker:
 
     def time(self, column: str, timezone: str | None) -> pd.Series:
         """UTC timestamps; a time without an offset needs ``timezone`` (IANA) to be placed."""
+        # One UTC object whichever way the times were parsed (Arrow hands pandas ZoneInfo("UTC"),
+        # pandas' own parser datetime.timezone.utc), so frames from any input compare alike.
+        utc: pd.Series = self._utc_times(column, timezone).dt.tz_convert("UTC")
+        return utc
+
+    def _utc_times(self, column: str, timezone: str | None) -> pd.Series:
         series = self.frame[column]
         if isinstance(series.dtype, pd.DatetimeTZDtype):
             aware: pd.Series = series.dt.tz_convert("UTC").astype(TIME_DTYPE)

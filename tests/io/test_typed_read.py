@@ -41,6 +41,7 @@ def test_typed_read_equals_the_text_path(tmp_path: Path) -> None:
     assert rows_of(typed) == rows_of(text)
     assert str(typed["quantity"].dtype) == str(text["quantity"].dtype)
     assert str(typed["time"].dtype) == str(text["time"].dtype)
+    assert typed["time"].dt.tz is text["time"].dt.tz  # one UTC object, however parsed
 
 
 def test_times_with_offsets_are_parsed_by_the_reader(tmp_path: Path) -> None:
