@@ -67,6 +67,8 @@ class _Checker:
 
     def text(self, column: str, *, required: bool, default: str = "") -> pa.Array:
         if column not in self.frame.columns:
+            if not default:
+                return vectorised.blank_text(len(self.frame))
             return pa.repeat(pa.scalar(default, pa.string()), len(self.frame))
         values = clean_text(self.raw_text(column))
         if required:

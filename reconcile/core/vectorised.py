@@ -142,6 +142,19 @@ def _codes(values: pa.Array) -> np.ndarray:
     return np.asarray(encoded.indices.to_numpy(zero_copy_only=False))
 
 
+def blank_text(length: int) -> pa.Array:
+    """``length`` empty strings, in the large-string layout pandas keeps text in.
+
+    Its offsets are all zero: ``np.zeros`` takes them from memory the system hands out zeroed,
+    so an absent optional column (no ``order_id`` in ten million fills) costs no memory until
+    something writes to it, instead of two arrays of offsets (Arrow's, then pandas' wider copy).
+    """
+    offsets = np.zeros(length + 1, np.int64)
+    return pa.Array.from_buffers(
+        pa.large_string(), length, [None, pa.py_buffer(offsets), pa.py_buffer(b"")]
+    )
+
+
 def string_series(values: pa.Array) -> pd.Series:
     """A pandas ``str`` column over Arrow strings, without a row-by-row copy."""
     kind = pd.StringDtype(na_value=np.nan)

@@ -59,3 +59,13 @@ def test_pair_codes_of_32_bit_codes_do_not_wrap() -> None:
 
 def test_codes_of_a_column_with_a_missing_value_are_none() -> None:
     assert vectorised.codes(pa.array(["USD", None])) is None
+
+
+@given(st.integers(min_value=0, max_value=2_000))
+def test_blank_text_is_what_arrow_repeats(length: int) -> None:
+    blank = vectorised.blank_text(length)
+    blank.validate(full=True)
+    assert blank.cast(pa.string()).equals(pa.repeat(pa.scalar("", pa.string()), length))
+    series = vectorised.string_series(blank)
+    assert str(series.dtype) == "str"
+    assert series.tolist() == [""] * length
