@@ -16,6 +16,7 @@ from reconcile.core.canon import canonical_fills
 from reconcile.errors import ValidationError
 from reconcile.io.readers.sources import FILL_TYPED
 from reconcile.io.readers.tabular import read_table
+from reconcile.io.readers.typed_csv import TypedColumns
 from tests.builders import rows_of
 
 HEADER = "fill_id,account,instrument,side,quantity,price,time,commission,currency,multiplier\n"
@@ -48,6 +49,12 @@ def test_times_with_offsets_are_parsed_by_the_reader(tmp_path: Path) -> None:
     raw = read_table(_write(tmp_path, ROWS), typed=FILL_TYPED)
     assert isinstance(raw["time"].dtype, pd.DatetimeTZDtype)
     assert str(raw["time"].iloc[1]) == "2026-11-02 14:30:00.125000+00:00"
+
+
+def test_times_alone_can_be_typed(tmp_path: Path) -> None:
+    raw = read_table(_write(tmp_path, ROWS), typed=TypedColumns(times=("time",)))
+    assert isinstance(raw["time"].dtype, pd.DatetimeTZDtype)
+    assert raw["quantity"].tolist()[0] == "10"  # text, as asked
 
 
 @pytest.mark.parametrize(

@@ -57,7 +57,7 @@ def read_delimited(
     :mod:`reconcile.io.readers.typed_csv`).
     """
     header = _csv_header(path, _head(path, dialect), dialect)
-    if typed.decimals and dialect == Dialect():
+    if (typed.decimals or typed.times) and dialect == Dialect():
         frame = read_typed_csv(path, header, typed)
         if frame is not None:
             frame[SOURCE_ROW] = _record_lines(path, len(frame), dialect)

@@ -42,7 +42,7 @@ def read_typed_csv(path: Path, header: list[str], typed: TypedColumns) -> pd.Dat
     """The file with ``typed.decimals`` as exact Arrow decimals, ``typed.times`` as UTC times
     where every value carries its offset, and every other column as text."""
     wanted = [name for name in header if name.strip() in typed.decimals]
-    places = _sampled_places(path, header, wanted)
+    places = _sampled_places(path, header, wanted) if wanted else {}
     if places is None:
         return None
     types = {name: pa.string() for name in header}
@@ -90,8 +90,6 @@ def _sampled_places(path: Path, header: list[str], wanted: list[str]) -> dict[st
     written with more places than the sample showed makes Arrow refuse the file, and the text path
     then reads it.
     """
-    if not wanted:
-        return None
     with path.open("rb") as handle:
         sample = handle.read(SAMPLE_BYTES)
     if len(sample) == SAMPLE_BYTES:
